@@ -1,0 +1,93 @@
+//! The command-line front end of incertus: argument parsing and the text
+//! output of each command. This is the only crate of the workspace that
+//! prints; the library crates return values and errors.
+//!
+//! Exit codes: 0 success, 1 a problem with the input (formula, values,
+//! files), 2 a problem with the command line itself.
+
+use std::ffi::OsString;
+use std::io::Write;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+mod derive_cmd;
+
+/// Exit code for a problem with the user's input.
+pub const EXIT_INPUT: u8 = 1;
+/// Exit code for a malformed command line.
+pub const EXIT_USAGE: u8 = 2;
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "incertus",
+    version,
+    about = "Evaluation of measurement uncertainty: formulas, sensitivity coefficients, propagation",
+    long_about = None
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Print the partial derivatives of a formula, simplified, and their values at a point
+    Derive(derive_cmd::DeriveArgs),
+}
+
+/// An error a command reports: the text to print and the exit code.
+#[derive(Debug)]
+pub struct Failure {
+    pub message: String,
+    pub code: u8,
+}
+
+impl Failure {
+    pub fn input(message: impl Into<String>) -> Self {
+        Failure {
+            message: message.into(),
+            code: EXIT_INPUT,
+        }
+    }
+}
+
+/// Run the program with the process's arguments.
+pub fn run() -> ExitCode {
+    let stdout = std::io::stdout();
+    let stderr = std::io::stderr();
+    let code = run_with(std::env::args_os(), &mut stdout.lock(), &mut stderr.lock());
+    ExitCode::from(code)
+}
+
+/// Run the program with the given arguments and output streams; returns the
+/// exit code.
+pub fn run_with<I, T>(args: I, out: &mut dyn Write, err: &mut dyn Write) -> u8
+where
+    I: IntoIterator<Item = T>,
+    T: Into<OsString> + Clone,
+{
+    let cli = match Cli::try_parse_from(args) {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() { EXIT_USAGE } else { 0 };
+            let text = e.render().to_string();
+            let _ = if code == 0 {
+                write!(out, "{text}")
+            } else {
+                write!(err, "{text}")
+            };
+            return code;
+        }
+    };
+    let result = match cli.command {
+        Command::Derive(a) => derive_cmd::run(&a, out),
+    };
+    match result {
+        Ok(()) => 0,
+        Err(f) => {
+            let _ = writeln!(err, "error: {}", f.message);
+            f.code
+        }
+    }
+}
