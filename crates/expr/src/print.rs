@@ -23,8 +23,12 @@ enum Prec {
 /// Write a formula as text that [`crate::parse()`] reads back.
 ///
 /// ```
-/// use incertus_expr::{parse, print};
-/// assert_eq!(print(&parse("-(x^2) + (a*b)/(c - 1)").unwrap()), "-x^2 + a*b/(c - 1)");
+/// use incertus_expr::{parse, print, simplify};
+/// let f = parse("-(x^2) + (a*b)/(c - 1)").unwrap();
+/// // Redundant parentheses go; grouping that changes the order of
+/// // evaluation stays, unless simplification flattens it.
+/// assert_eq!(print(&f), "-x^2 + (a*b)/(c - 1)");
+/// assert_eq!(print(&simplify(&f)), "a*b/(c - 1) - x^2");
 /// ```
 pub fn print(e: &Expr) -> String {
     let mut out = String::new();
@@ -55,16 +59,27 @@ fn prec(e: &Expr) -> Prec {
     match &e.kind {
         Kind::Num(v) if *v < 0.0 || (*v == 0.0 && v.is_sign_negative()) => Prec::Unary,
         Kind::Num(_) | Kind::Pi | Kind::Var(_) | Kind::Call(..) => Prec::Atom,
-        // `-a*b` reads back as `(-a)*b`, which has the same value bit for
-        // bit (negation is exact), so a negated product prints without
-        // parentheses where a product may stand.
-        Kind::Neg(a) if matches!(a.kind, Kind::Product(_)) => Prec::Product,
-        Kind::Neg(_) => Prec::Unary,
+        Kind::Neg(a) => after_minus(a),
         Kind::Sum(ts) if ts.len() == 1 && !ts[0].negative => prec(&ts[0].expr),
         Kind::Sum(_) => Prec::Sum,
         Kind::Product(fs) if fs.len() == 1 && !fs[0].divide => prec(&fs[0].expr),
         Kind::Product(_) => Prec::Product,
         Kind::Pow(..) => Prec::Power,
+    }
+}
+
+/// What may follow a unary minus without parentheses, which is also the
+/// binding of the negation as a whole. `-a*b` reads back as `(-a)*b`, the
+/// same value bit for bit (negation is exact), so a negated product whose
+/// first factor needs no parentheses prints bare and binds like a product;
+/// any other operand is parenthesised unless it binds at least as tightly as
+/// a unary minus. Keeping to this makes printing stable:
+/// `print(parse(print(e))) == print(e)`.
+fn after_minus(a: &Expr) -> Prec {
+    match &a.kind {
+        Kind::Product(fs) if fs[0].divide || prec(&fs[0].expr) >= Prec::Unary => Prec::Product,
+        Kind::Neg(_) if prec(a) == Prec::Product => Prec::Product,
+        _ => Prec::Unary,
     }
 }
 
@@ -85,10 +100,7 @@ fn write(e: &Expr, out: &mut String) {
         Kind::Var(n) => out.push_str(n),
         Kind::Neg(a) => {
             out.push('-');
-            match a.kind {
-                Kind::Product(_) => child(a, Prec::Product, out),
-                _ => child(a, Prec::Unary, out),
-            }
+            child(a, after_minus(a), out);
         }
         Kind::Sum(ts) => {
             for (i, t) in ts.iter().enumerate() {
@@ -96,10 +108,7 @@ fn write(e: &Expr, out: &mut String) {
                     (0, false) => child(&t.expr, Prec::Product, out),
                     (0, true) => {
                         out.push('-');
-                        match t.expr.kind {
-                            Kind::Product(_) => child(&t.expr, Prec::Product, out),
-                            _ => child(&t.expr, Prec::Unary, out),
-                        }
+                        child(&t.expr, after_minus(&t.expr), out);
                     }
                     (_, neg) => {
                         out.push_str(if neg { " - " } else { " + " });
