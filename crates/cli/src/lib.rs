@@ -12,6 +12,8 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 mod derive_cmd;
+mod eval_cmd;
+pub mod report;
 
 /// Exit code for a problem with the user's input.
 pub const EXIT_INPUT: u8 = 1;
@@ -34,6 +36,10 @@ struct Cli {
 enum Command {
     /// Print the partial derivatives of a formula, simplified, and their values at a point
     Derive(derive_cmd::DeriveArgs),
+    /// Evaluate a model file by the law of propagation and print its uncertainty budget
+    Eval(eval_cmd::EvalArgs),
+    /// Compare the sensitivity coefficients and results stated in a model file with the computed ones
+    Check(eval_cmd::CheckArgs),
 }
 
 /// An error a command reports: the text to print and the exit code.
@@ -82,6 +88,8 @@ where
     };
     let result = match cli.command {
         Command::Derive(a) => derive_cmd::run(&a, out),
+        Command::Eval(a) => eval_cmd::run_eval(&a, out),
+        Command::Check(a) => eval_cmd::run_check(&a, out),
     };
     match result {
         Ok(()) => 0,

@@ -1,0 +1,417 @@
+//! Writers of an evaluation: aligned text, Markdown, JSON and CSV.
+//!
+//! Text and Markdown round the result by JCGM 100:2008, 7.2 (the
+//! uncertainty to two significant digits unless asked otherwise, the
+//! estimate to the same decimal place) and state k, p and ν_eff with every
+//! expanded uncertainty; budgets show intermediate quantities to five
+//! significant digits. JSON and CSV keep full precision.
+
+use incertus_gum::rounding::{significant, write};
+use incertus_gum::{MeasurandResult, Report};
+
+/// How a result is written.
+#[derive(Clone, Copy, Debug)]
+pub struct Style {
+    /// Significant digits of reported uncertainties (1 to 3).
+    pub digits: u32,
+}
+
+fn dof_text(d: Option<f64>) -> String {
+    match d {
+        None => "inf".into(),
+        Some(v) if v.fract() == 0.0 => format!("{v}"),
+        Some(v) => significant(v, 3),
+    }
+}
+
+fn percent(p: f64) -> String {
+    let s = significant(100.0 * p, 4);
+    format!("{s} %")
+}
+
+fn type_text(b: &incertus_gum::BudgetLine) -> String {
+    match b.evaluation.as_str() {
+        "A" => format!("A, n = {}", b.observations.unwrap_or(0)),
+        "B" => format!("B, {}", b.distribution),
+        "constant" => format!("constant, {}", b.distribution),
+        other => other.to_string(),
+    }
+}
+
+/// Rows of the budget table (header first).
+fn budget_rows(r: &MeasurandResult) -> Vec<Vec<String>> {
+    let with_units = r.budget.iter().any(|b| b.unit.is_some());
+    let mut header = vec!["quantity", "estimate"];
+    if with_units {
+        header.push("unit");
+    }
+    header.extend([
+        "standard uncertainty",
+        "type, distribution",
+        "dof",
+        "sensitivity coefficient",
+        "contribution",
+        "share of u²",
+    ]);
+    let mut rows = vec![header.into_iter().map(String::from).collect::<Vec<_>>()];
+    for b in &r.budget {
+        let mut row = vec![b.input.clone(), significant(b.value, 8)];
+        if with_units {
+            row.push(b.unit.clone().unwrap_or_default());
+        }
+        row.extend([
+            significant(b.standard_uncertainty, 5),
+            type_text(b),
+            if b.evaluation == "exact" || b.standard_uncertainty == 0.0 {
+                "-".into()
+            } else {
+                dof_text(b.dof)
+            },
+            significant(b.sensitivity, 5),
+            significant(b.contribution, 5),
+            percent(b.share),
+        ]);
+        rows.push(row);
+    }
+    for c in &r.correlation_budget {
+        let mut row = vec![
+            format!(
+                "r({}, {}) = {}",
+                c.inputs[0],
+                c.inputs[1],
+                significant(c.coefficient, 4)
+            ),
+            String::new(),
+        ];
+        if with_units {
+            row.push(String::new());
+        }
+        row.extend([
+            String::new(),
+            if c.from_observations {
+                "observed together".into()
+            } else {
+                "stated".into()
+            },
+            String::new(),
+            String::new(),
+            format!(
+                "{:+}",
+                significant(c.term, 5).parse::<f64>().unwrap_or(c.term)
+            ),
+            percent(c.share),
+        ]);
+        rows.push(row);
+    }
+    rows
+}
+
+fn aligned(rows: &[Vec<String>]) -> String {
+    let cols = rows.iter().map(Vec::len).max().unwrap_or(0);
+    let width: Vec<usize> = (0..cols)
+        .map(|c| {
+            rows.iter()
+                .map(|r| r.get(c).map_or(0, |s| s.chars().count()))
+                .max()
+                .unwrap_or(0)
+        })
+        .collect();
+    let mut out = String::new();
+    for (i, r) in rows.iter().enumerate() {
+        let mut line = String::new();
+        for (c, cell) in r.iter().enumerate() {
+            if c > 0 {
+                line.push_str("  ");
+            }
+            line.push_str(cell);
+            line.push_str(&" ".repeat(width[c] - cell.chars().count()));
+        }
+        out.push_str(line.trim_end());
+        out.push('\n');
+        if i == 0 {
+            let total: usize = width.iter().sum::<usize>() + 2 * (cols.saturating_sub(1));
+            out.push_str(&"-".repeat(total));
+            out.push('\n');
+        }
+    }
+    out
+}
+
+fn unit_suffix(r: &MeasurandResult) -> String {
+    r.unit.as_ref().map(|u| format!(" {u}")).unwrap_or_default()
+}
+
+/// The lines stating a result, shared by text and Markdown.
+fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<String> {
+    let unit = unit_suffix(r);
+    let name = &r.name;
+    let u_used = r
+        .second_order_standard_uncertainty
+        .unwrap_or(r.standard_uncertainty);
+    let wu = write(r.value, u_used, style.digits);
+    let wbig = write(r.value, r.expanded_uncertainty, style.digits);
+    let p = percent(r.coverage_probability);
+    let dof = match (r.effective_dof, r.effective_dof_used) {
+        (None, _) => "ν_eff = infinite".to_string(),
+        (Some(v), Some(used)) => {
+            let rule = if report.effective_dof_rounding == "truncate" {
+                "truncated to an integer, JCGM 100:2008, G.4.1"
+            } else {
+                "used as computed"
+            };
+            format!(
+                "ν_eff = {} ({} used, {rule})",
+                significant(v, 4),
+                significant(used, 4)
+            )
+        }
+        (Some(v), None) => format!("ν_eff = {}", significant(v, 4)),
+    };
+    let mut lines = vec![
+        format!(
+            "estimate                          {name} = {}{unit}",
+            significant(r.value, 10)
+        ),
+        format!(
+            "combined standard uncertainty     u({name}) = {}{unit}{}",
+            significant(r.standard_uncertainty, 5),
+            r.relative_standard_uncertainty
+                .map(|x| format!("  (relative {})", significant(x, 3)))
+                .unwrap_or_default()
+        ),
+    ];
+    if let Some(s) = r.second_order_standard_uncertainty {
+        lines.push(format!(
+            "with higher-order terms           u({name}) = {}{unit}  (JCGM 100:2008, 5.1.2; used for U)",
+            significant(s, 5)
+        ));
+    }
+    lines.push(format!("effective degrees of freedom      {dof}"));
+    lines.push(format!(
+        "coverage factor                   k = {} for p = {p} (Student's t)",
+        significant(r.coverage_factor, 4)
+    ));
+    lines.push(format!(
+        "expanded uncertainty              U({name}) = {}{unit}",
+        significant(r.expanded_uncertainty, 5)
+    ));
+    lines.push(String::new());
+    lines.push(format!(
+        "result   {name} = {}{unit}   (in parentheses: the standard uncertainty u in units of the last digits)",
+        wu.concise
+    ));
+    lines.push(format!(
+        "         {name} = {}{unit}   (± gives the expanded uncertainty U: k = {}, p = {p}, {})",
+        wbig.plus_minus,
+        significant(r.coverage_factor, 3),
+        match r.effective_dof_used {
+            None => "ν_eff infinite".to_string(),
+            Some(v) => format!("ν_eff = {}", significant(v, 4)),
+        }
+    ));
+    lines.push(format!(
+        "         rounded to {} significant digit{} of the uncertainty, the estimate to the same place (JCGM 100:2008, 7.2.6)",
+        style.digits,
+        if style.digits == 1 { "" } else { "s" }
+    ));
+    lines
+}
+
+/// The aligned text report.
+pub fn text(report: &Report, style: Style) -> String {
+    let mut out = String::new();
+    if let Some(t) = &report.title {
+        out.push_str(t);
+        out.push('\n');
+        out.push_str(&"=".repeat(t.chars().count()));
+        out.push_str("\n\n");
+    }
+    for r in &report.results {
+        out.push_str(&format!(
+            "measurement model  {} = {}\n\n",
+            r.name, r.formula
+        ));
+        out.push_str(&format!("uncertainty budget of {}\n", r.name));
+        out.push_str(&aligned(&budget_rows(r)));
+        out.push_str("\nsensitivity coefficients as formulas\n");
+        for b in &r.budget {
+            out.push_str(&format!(
+                "  ∂{}/∂{} = {}\n",
+                r.name, b.input, b.sensitivity_formula
+            ));
+        }
+        out.push('\n');
+        for l in result_lines(r, report, style) {
+            out.push_str(l.trim_end());
+            out.push('\n');
+        }
+        out.push('\n');
+    }
+    if report.results.len() > 1 {
+        out.push_str("correlation matrix of the measurands (JCGM 102:2011, first order)\n");
+        let names = &report.correlation_matrix.names;
+        let mut rows = vec![std::iter::once(String::new())
+            .chain(names.iter().cloned())
+            .collect::<Vec<_>>()];
+        for (i, row) in report.correlation_matrix.matrix.iter().enumerate() {
+            rows.push(
+                std::iter::once(names[i].clone())
+                    .chain(row.iter().map(|v| format!("{v:.4}")))
+                    .collect(),
+            );
+        }
+        out.push_str(&aligned(&rows));
+        out.push('\n');
+    }
+    for n in &report.notes {
+        out.push_str(&format!("note: {n}\n"));
+    }
+    out
+}
+
+fn md_escape(s: &str) -> String {
+    s.replace('|', "\\|")
+        .replace('*', "\\*")
+        .replace('_', "\\_")
+}
+
+/// The same content as Markdown.
+pub fn markdown(report: &Report, style: Style) -> String {
+    let mut out = String::new();
+    out.push_str(&format!(
+        "# {}\n\n",
+        md_escape(report.title.as_deref().unwrap_or("Uncertainty evaluation"))
+    ));
+    for r in &report.results {
+        out.push_str(&format!(
+            "## {}\n\nMeasurement model: `{} = {}`\n\n",
+            md_escape(&r.name),
+            r.name,
+            r.formula
+        ));
+        let rows = budget_rows(r);
+        for (i, row) in rows.iter().enumerate() {
+            out.push_str("| ");
+            out.push_str(
+                &row.iter()
+                    .map(|c| md_escape(c))
+                    .collect::<Vec<_>>()
+                    .join(" | "),
+            );
+            out.push_str(" |\n");
+            if i == 0 {
+                out.push('|');
+                out.push_str(&row.iter().map(|_| "---|").collect::<String>());
+                out.push('\n');
+            }
+        }
+        out.push_str("\nSensitivity coefficients as formulas:\n\n");
+        for b in &r.budget {
+            out.push_str(&format!(
+                "- `∂{}/∂{} = {}`\n",
+                r.name, b.input, b.sensitivity_formula
+            ));
+        }
+        out.push_str("\n```text\n");
+        for l in result_lines(r, report, style) {
+            out.push_str(l.trim_end());
+            out.push('\n');
+        }
+        out.push_str("```\n\n");
+    }
+    if report.results.len() > 1 {
+        out.push_str("Correlation matrix of the measurands (JCGM 102:2011, first order):\n\n| |");
+        let names = &report.correlation_matrix.names;
+        out.push_str(
+            &names
+                .iter()
+                .map(|n| format!(" {} |", md_escape(n)))
+                .collect::<String>(),
+        );
+        out.push_str("\n|---|");
+        out.push_str(&names.iter().map(|_| "---|").collect::<String>());
+        out.push('\n');
+        for (i, row) in report.correlation_matrix.matrix.iter().enumerate() {
+            out.push_str(&format!("| {} |", md_escape(&names[i])));
+            out.push_str(&row.iter().map(|v| format!(" {v:.4} |")).collect::<String>());
+            out.push('\n');
+        }
+        out.push('\n');
+    }
+    for n in &report.notes {
+        out.push_str(&format!("- Note: {}\n", md_escape(n)));
+    }
+    out
+}
+
+/// The full result as JSON (full precision).
+pub fn json(report: &Report) -> String {
+    let mut v = serde_json::to_value(report).expect("a report is plain data");
+    if let Some(obj) = v.as_object_mut() {
+        obj.insert(
+            "program".into(),
+            serde_json::json!({"name": "incertus", "version": env!("CARGO_PKG_VERSION")}),
+        );
+    }
+    let mut s = serde_json::to_string_pretty(&v).expect("a report is plain data");
+    s.push('\n');
+    s
+}
+
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map(|x| format!("{x:e}")).unwrap_or_default()
+}
+
+/// The budgets as CSV (full precision; an empty dof means infinite).
+pub fn csv(report: &Report) -> String {
+    let mut out = String::from(
+        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share\n",
+    );
+    for r in &report.results {
+        for b in &r.budget {
+            let fields = [
+                csv_field(&r.name),
+                "input".into(),
+                csv_field(&b.input),
+                format!("{:e}", b.value),
+                format!("{:e}", b.standard_uncertainty),
+                opt(b.dof),
+                b.evaluation.clone(),
+                b.distribution.clone(),
+                format!("{:e}", b.sensitivity),
+                csv_field(&b.sensitivity_formula),
+                format!("{:e}", b.contribution),
+                format!("{:e}", b.share),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+        for c in &r.correlation_budget {
+            let fields = [
+                csv_field(&r.name),
+                "correlation".into(),
+                csv_field(&format!("{} {}", c.inputs[0], c.inputs[1])),
+                format!("{:e}", c.coefficient),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                format!("{:e}", c.term),
+                format!("{:e}", c.share),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+    }
+    out
+}

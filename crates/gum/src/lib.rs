@@ -1,0 +1,46 @@
+//! The law of propagation of uncertainty of JCGM 100:2008 (GUM): input
+//! quantities by Type A and Type B evaluation (clause 4), correlations
+//! (5.2), sensitivity coefficients from symbolic derivatives (5.1.3),
+//! uncertainty budgets, higher-order terms (5.1.2 note), effective degrees
+//! of freedom by Welch-Satterthwaite and coverage factors from Student's t
+//! (Annex G), reporting rules (7.2), several measurands with their
+//! covariance (JCGM 102:2011), model files in TOML, and the check of a
+//! budget derived by hand.
+//!
+//! Left out here: propagation of distributions (crate `incertus-mc`), units
+//! (crate `incertus-units`), fits (crate `incertus-fit`).
+//!
+//! ```
+//! use incertus_gum::{load_str, propagate, Options};
+//! let model = load_str(r#"
+//!     [inputs.a]
+//!     value = 2.0
+//!     standard_uncertainty = 0.1
+//!     [inputs.b]
+//!     value = 3.0
+//!     standard_uncertainty = 0.2
+//!     [[measurands]]
+//!     name = "y"
+//!     formula = "a*b"
+//! "#, "example.toml").unwrap();
+//! let report = propagate(&model, &Options::default()).unwrap();
+//! let y = &report.results[0];
+//! assert_eq!(y.value, 6.0);
+//! // u² = (b u_a)² + (a u_b)² = 0.09 + 0.16
+//! assert!((y.standard_uncertainty - 0.5).abs() < 1e-15);
+//! ```
+
+pub mod check;
+pub mod constants;
+pub mod coverage;
+mod load;
+pub mod matrix;
+pub mod model;
+pub mod propagate;
+pub mod rounding;
+pub mod typea;
+
+pub use check::{check, CheckItem, CheckReport};
+pub use load::{load_file, load_str, ModelError, MAX_FILE_BYTES};
+pub use model::{Correlation, Distribution, DofRounding, Evaluation, Input, Measurand, Model};
+pub use propagate::{propagate, BudgetLine, MeasurandResult, Options, PropagationError, Report};

@@ -1,0 +1,1471 @@
+//! Model files (TOML) to [`Model`], with errors that name the key path and
+//! the line.
+//!
+//! The file is parsed with spans (`toml::de::DeTable`) and walked by hand,
+//! so that every problem — an unknown key, a value of the wrong type, two
+//! descriptions of one uncertainty, an unknown name in a formula — is
+//! reported with `file:line:column`, the key path (`inputs.d.dof`) and, for
+//! formulas, a caret under the place. The file is only ever read.
+
+use std::collections::HashMap;
+use std::ops::Range;
+use std::path::Path;
+
+use incertus_expr::{parse, Expr, FormulaError, Kind};
+use toml::de::{DeArray, DeTable, DeValue};
+use toml::Spanned;
+
+use crate::constants;
+use crate::model::*;
+use crate::typea;
+
+/// Largest model file accepted, in bytes.
+pub const MAX_FILE_BYTES: u64 = 16 << 20;
+
+/// A problem with a model file.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{}", self.render())]
+pub struct ModelError {
+    /// The file as given (or `<model>` for text).
+    pub file: String,
+    /// 1-based line and column; 0 when the problem is the file as a whole.
+    pub line: usize,
+    pub column: usize,
+    /// Key path, e.g. `inputs.d.dof` (empty for the whole file).
+    pub path: String,
+    pub message: String,
+    /// More lines (a formula with a caret, a hint).
+    pub detail: Option<String>,
+}
+
+impl ModelError {
+    fn render(&self) -> String {
+        let mut s = if self.line > 0 {
+            format!("{}:{}:{}: ", self.file, self.line, self.column)
+        } else {
+            format!("{}: ", self.file)
+        };
+        if !self.path.is_empty() {
+            s.push_str(&format!("`{}`: ", self.path));
+        }
+        s.push_str(&self.message);
+        if let Some(d) = &self.detail {
+            s.push('\n');
+            s.push_str(d);
+        }
+        s
+    }
+}
+
+/// Read and load a model file. The file is opened for reading only.
+pub fn load_file(path: &Path) -> Result<Model, ModelError> {
+    let file = path.display().to_string();
+    let whole = |message: String| ModelError {
+        file: file.clone(),
+        line: 0,
+        column: 0,
+        path: String::new(),
+        message,
+        detail: None,
+    };
+    let meta = std::fs::metadata(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
+    if meta.is_dir() {
+        return Err(whole("is a directory, not a model file".into()));
+    }
+    if meta.len() > MAX_FILE_BYTES {
+        return Err(whole(format!(
+            "the file is {} bytes; model files are limited to {} bytes",
+            meta.len(),
+            MAX_FILE_BYTES
+        )));
+    }
+    let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        whole(format!(
+            "the file is not UTF-8 text (invalid byte at offset {})",
+            e.utf8_error().valid_up_to()
+        ))
+    })?;
+    load_str(&text, &file)
+}
+
+/// Load a model from TOML text; `file` names it in errors.
+pub fn load_str(text: &str, file: &str) -> Result<Model, ModelError> {
+    let doc = Doc { src: text, file };
+    let root = DeTable::parse(text).map_err(|e| {
+        let span = e.span().unwrap_or(0..0);
+        doc.error(span, "", format!("not valid TOML: {}", e.message().trim()))
+    })?;
+    let root_span = root.span();
+    let mut top = Reader::new(&doc, "", root.get_ref(), root_span);
+    Loader { doc: &doc }.model(&mut top)
+}
+
+struct Doc<'a> {
+    src: &'a str,
+    file: &'a str,
+}
+
+impl Doc<'_> {
+    fn line_col(&self, offset: usize) -> (usize, usize) {
+        let offset = offset.min(self.src.len());
+        let before = &self.src[..offset];
+        let line = before.matches('\n').count() + 1;
+        let col = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        (line, col)
+    }
+
+    fn line(&self, span: &Range<usize>) -> usize {
+        self.line_col(span.start).0
+    }
+
+    fn error(&self, span: Range<usize>, path: &str, message: impl Into<String>) -> ModelError {
+        let (line, column) = self.line_col(span.start);
+        ModelError {
+            file: self.file.to_string(),
+            line,
+            column,
+            path: path.to_string(),
+            message: message.into(),
+            detail: None,
+        }
+    }
+}
+
+type Result<T, E = ModelError> = std::result::Result<T, E>;
+
+fn join(path: &str, key: &str) -> String {
+    if path.is_empty() {
+        key.to_string()
+    } else {
+        format!("{path}.{key}")
+    }
+}
+
+fn type_name(v: &DeValue) -> &'static str {
+    match v {
+        DeValue::String(_) => "a string",
+        DeValue::Integer(_) => "an integer",
+        DeValue::Float(_) => "a number",
+        DeValue::Boolean(_) => "a boolean",
+        DeValue::Datetime(_) => "a date",
+        DeValue::Array(_) => "an array",
+        DeValue::Table(_) => "a table",
+    }
+}
+
+/// Names with their spans, and the span of the whole array.
+type NameList = (Vec<(String, Range<usize>)>, Range<usize>);
+
+/// A number with its span and text.
+#[derive(Clone, Debug)]
+struct Num {
+    value: f64,
+    span: Range<usize>,
+    text: String,
+}
+
+/// Reads the keys of one table, remembering which were used, so that the
+/// rest can be reported as unknown.
+struct Reader<'d, 't, 'i> {
+    doc: &'d Doc<'d>,
+    path: String,
+    table: &'t DeTable<'i>,
+    span: Range<usize>,
+    used: Vec<String>,
+}
+
+impl<'d, 't, 'i> Reader<'d, 't, 'i> {
+    fn new(doc: &'d Doc<'d>, path: &str, table: &'t DeTable<'i>, span: Range<usize>) -> Self {
+        Reader {
+            doc,
+            path: path.to_string(),
+            table,
+            span,
+            used: Vec::new(),
+        }
+    }
+
+    fn key_path(&self, key: &str) -> String {
+        join(&self.path, key)
+    }
+
+    fn err(&self, span: Range<usize>, key: &str, msg: impl Into<String>) -> ModelError {
+        self.doc.error(span, &self.key_path(key), msg)
+    }
+
+    fn get(&mut self, key: &str) -> Option<&'t Spanned<DeValue<'i>>> {
+        let found = self
+            .table
+            .iter()
+            .find(|(k, _)| k.get_ref().as_ref() == key)
+            .map(|(_, v)| v);
+        if found.is_some() && !self.used.iter().any(|u| u == key) {
+            self.used.push(key.to_string());
+        }
+        found
+    }
+
+    fn span_of(&self, key: &str) -> Range<usize> {
+        self.table
+            .iter()
+            .find(|(k, _)| k.get_ref().as_ref() == key)
+            .map_or(self.span.clone(), |(k, _)| k.span())
+    }
+
+    fn number(&mut self, key: &str) -> Result<Option<Num>> {
+        let Some(v) = self.get(key) else {
+            return Ok(None);
+        };
+        let num = number_value(v).ok_or_else(|| {
+            self.err(
+                v.span(),
+                key,
+                format!("expected a number, found {}", type_name(v.get_ref())),
+            )
+        })?;
+        if !num.value.is_finite() {
+            return Err(self.err(
+                v.span(),
+                key,
+                format!("`{}` is not a finite number", num.text),
+            ));
+        }
+        Ok(Some(num))
+    }
+
+    fn string(&mut self, key: &str) -> Result<Option<(String, Range<usize>)>> {
+        let Some(v) = self.get(key) else {
+            return Ok(None);
+        };
+        match v.get_ref() {
+            DeValue::String(s) => Ok(Some((s.to_string(), v.span()))),
+            other => Err(self.err(
+                v.span(),
+                key,
+                format!("expected a string, found {}", type_name(other)),
+            )),
+        }
+    }
+
+    fn array(&mut self, key: &str) -> Result<Option<(&'t DeArray<'i>, Range<usize>)>> {
+        let Some(v) = self.get(key) else {
+            return Ok(None);
+        };
+        match v.get_ref() {
+            DeValue::Array(a) => Ok(Some((a, v.span()))),
+            other => Err(self.err(
+                v.span(),
+                key,
+                format!("expected an array, found {}", type_name(other)),
+            )),
+        }
+    }
+
+    fn numbers(&mut self, key: &str) -> Result<Option<(Vec<f64>, Range<usize>)>> {
+        let Some((a, span)) = self.array(key)? else {
+            return Ok(None);
+        };
+        let mut out = Vec::with_capacity(a.len());
+        for (i, v) in a.iter().enumerate() {
+            let p = format!("{key}[{i}]");
+            let n = number_value(v).ok_or_else(|| {
+                self.err(
+                    v.span(),
+                    &p,
+                    format!("expected a number, found {}", type_name(v.get_ref())),
+                )
+            })?;
+            if !n.value.is_finite() {
+                return Err(self.err(v.span(), &p, format!("`{}` is not a finite number", n.text)));
+            }
+            out.push(n.value);
+        }
+        Ok(Some((out, span)))
+    }
+
+    fn names(&mut self, key: &str) -> Result<Option<NameList>> {
+        let Some((a, span)) = self.array(key)? else {
+            return Ok(None);
+        };
+        let mut out = Vec::new();
+        for (i, v) in a.iter().enumerate() {
+            match v.get_ref() {
+                DeValue::String(s) => out.push((s.to_string(), v.span())),
+                other => {
+                    return Err(self.err(
+                        v.span(),
+                        &format!("{key}[{i}]"),
+                        format!("expected a name (a string), found {}", type_name(other)),
+                    ))
+                }
+            }
+        }
+        Ok(Some((out, span)))
+    }
+
+    /// Error on any key not read.
+    fn finish(&self, known: &[&str]) -> Result<()> {
+        for (k, _) in self.table.iter() {
+            let key = k.get_ref().as_ref();
+            if !self.used.iter().any(|u| u == key) {
+                let mut msg = format!("unknown key `{key}`");
+                if let Some(close) = closest(key, known.iter().copied()) {
+                    msg.push_str(&format!("; did you mean `{close}`?"));
+                }
+                let mut e = self.err(k.span(), key, msg);
+                e.detail = Some(format!("keys allowed here: {}", known.join(", ")));
+                return Err(e);
+            }
+        }
+        Ok(())
+    }
+}
+
+fn number_value(v: &Spanned<DeValue>) -> Option<Num> {
+    let (value, text) = match v.get_ref() {
+        DeValue::Integer(i) => {
+            let t = i.as_str().replace('_', "");
+            let digits = t.trim_start_matches(['+', '-']);
+            let digits = digits
+                .strip_prefix("0x")
+                .or_else(|| digits.strip_prefix("0o"))
+                .or_else(|| digits.strip_prefix("0b"))
+                .unwrap_or(digits);
+            let mag = i128::from_str_radix(digits, i.radix()).ok()? as f64;
+            (
+                if t.starts_with('-') { -mag } else { mag },
+                i.as_str().to_string(),
+            )
+        }
+        DeValue::Float(f) => {
+            let t = f.as_str().replace('_', "");
+            (t.parse::<f64>().ok()?, f.as_str().to_string())
+        }
+        _ => return None,
+    };
+    Some(Num {
+        value,
+        span: v.span(),
+        text,
+    })
+}
+
+/// The closest of `options` to `word` by edit distance, if close enough to
+/// be a likely typo.
+pub(crate) fn closest<'a>(word: &str, options: impl Iterator<Item = &'a str>) -> Option<&'a str> {
+    let mut best: Option<(usize, &str)> = None;
+    for o in options {
+        let d = edit_distance(word, o);
+        if d <= 2.max(word.chars().count() / 3) && best.is_none_or(|(bd, _)| d < bd) {
+            best = Some((d, o));
+        }
+    }
+    best.map(|(_, o)| o)
+}
+
+fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for i in 1..=a.len() {
+        let mut cur = vec![i; b.len() + 1];
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            cur[j] = (prev[j] + 1).min(cur[j - 1] + 1).min(prev[j - 1] + cost);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+const TOP_KEYS: &[&str] = &[
+    "title",
+    "description",
+    "coverage_probability",
+    "effective_dof_rounding",
+    "inputs",
+    "correlations",
+    "observed_together",
+    "measurands",
+];
+
+const INPUT_KEYS: &[&str] = &[
+    "value",
+    "standard_uncertainty",
+    "dof",
+    "relative_reliability",
+    "distribution",
+    "expanded_uncertainty",
+    "coverage_factor",
+    "half_width",
+    "lower",
+    "upper",
+    "beta",
+    "observations",
+    "pooled_standard_deviation",
+    "pooled_dof",
+    "constant",
+    "description",
+    "unit",
+    "sensitivity",
+];
+
+const MEASURAND_KEYS: &[&str] = &[
+    "name",
+    "formula",
+    "description",
+    "unit",
+    "expected_value",
+    "expected_standard_uncertainty",
+];
+
+struct Loader<'a> {
+    doc: &'a Doc<'a>,
+}
+
+/// A name must read as a single name of the formula language.
+fn check_name(doc: &Doc, name: &str, span: Range<usize>, path: &str) -> Result<()> {
+    let ok = matches!(parse(name), Ok(Expr { kind: Kind::Var(ref n), .. }) if n == name);
+    if !ok {
+        return Err(doc.error(
+            span,
+            path,
+            format!(
+                "`{name}` cannot be used as a name in formulas: a name starts with a letter \
+                 or `_` and holds letters, digits and `_` (and is not a function name or pi)"
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// Sensitivities stated for later resolution (formulas need all names).
+struct PendingSensitivity {
+    input: usize,
+    measurand: Option<(String, Range<usize>)>,
+    value: RawSensitivity,
+    span: Range<usize>,
+    path: String,
+}
+
+/// A stated sensitivity as read, before the names are known.
+enum RawSensitivity {
+    Number(Num),
+    Formula(String),
+    Other(&'static str),
+}
+
+fn raw_sensitivity(v: &Spanned<DeValue>) -> RawSensitivity {
+    if let Some(n) = number_value(v) {
+        return RawSensitivity::Number(n);
+    }
+    match v.get_ref() {
+        DeValue::String(s) => RawSensitivity::Formula(s.to_string()),
+        other => RawSensitivity::Other(type_name(other)),
+    }
+}
+
+impl Loader<'_> {
+    fn model(&self, top: &mut Reader) -> Result<Model> {
+        let doc = self.doc;
+        let title = top.string("title")?.map(|(s, _)| s);
+        let _ = top.string("description")?;
+        let coverage_probability = match top.number("coverage_probability")? {
+            Some(n) => {
+                if !(n.value > 0.0 && n.value < 1.0) {
+                    return Err(top.err(
+                        n.span,
+                        "coverage_probability",
+                        format!("must lie strictly between 0 and 1, found {}", n.text),
+                    ));
+                }
+                n.value
+            }
+            None => 0.95,
+        };
+        let dof_rounding = match top.string("effective_dof_rounding")? {
+            None => DofRounding::Truncate,
+            Some((s, span)) => match s.as_str() {
+                "truncate" => DofRounding::Truncate,
+                "exact" => DofRounding::Exact,
+                _ => {
+                    return Err(top.err(
+                        span,
+                        "effective_dof_rounding",
+                        format!("expected \"truncate\" or \"exact\", found \"{s}\""),
+                    ))
+                }
+            },
+        };
+
+        // Inputs.
+        let mut inputs: Vec<Input> = Vec::new();
+        let mut pending: Vec<PendingSensitivity> = Vec::new();
+        if let Some(v) = top.get("inputs") {
+            let DeValue::Table(t) = v.get_ref() else {
+                return Err(top.err(
+                    v.span(),
+                    "inputs",
+                    format!(
+                        "expected a table of inputs, found {}",
+                        type_name(v.get_ref())
+                    ),
+                ));
+            };
+            for (k, val) in t.iter() {
+                let name = k.get_ref().to_string();
+                let path = format!("inputs.{name}");
+                check_name(doc, &name, k.span(), &path)?;
+                let DeValue::Table(it) = val.get_ref() else {
+                    return Err(doc.error(
+                        val.span(),
+                        &path,
+                        format!(
+                            "expected a table describing the input, found {}",
+                            type_name(val.get_ref())
+                        ),
+                    ));
+                };
+                let mut r = Reader::new(doc, &path, it, val.span());
+                let input = self.input(&name, &mut r, doc.line(&k.span()))?;
+                if let Some(s) = r.get("sensitivity") {
+                    self.collect_sensitivity(inputs.len(), s, &path, &mut pending)?;
+                }
+                r.finish(INPUT_KEYS)?;
+                inputs.push(input);
+            }
+        }
+
+        // Inputs observed together: their covariance from the data.
+        let mut correlations: Vec<Correlation> = Vec::new();
+        let index_of = |inputs: &[Input], name: &str| inputs.iter().position(|i| i.name == name);
+        if let Some((groups, _)) = top.array("observed_together")? {
+            let mut grouped: HashMap<usize, usize> = HashMap::new();
+            for (g, item) in groups.iter().enumerate() {
+                let path = format!("observed_together[{g}]");
+                let DeValue::Table(t) = item.get_ref() else {
+                    return Err(doc.error(
+                        item.span(),
+                        &path,
+                        "expected a table with `inputs = [...]`",
+                    ));
+                };
+                let mut r = Reader::new(doc, &path, t, item.span());
+                let Some((names, span)) = r.names("inputs")? else {
+                    return Err(doc.error(
+                        item.span(),
+                        &path,
+                        "missing `inputs = [\"a\", \"b\", ...]`",
+                    ));
+                };
+                r.finish(&["inputs"])?;
+                if names.len() < 2 {
+                    return Err(r.err(
+                        span,
+                        "inputs",
+                        "name at least two inputs observed together",
+                    ));
+                }
+                let mut idx = Vec::new();
+                for (n, s) in &names {
+                    let Some(i) = index_of(&inputs, n) else {
+                        return Err(r.err(s.clone(), "inputs", unknown_input(n, &inputs)));
+                    };
+                    let inp = &inputs[i];
+                    if !matches!(inp.evaluation, Evaluation::TypeA { pooled: false, .. }) {
+                        return Err(r.err(
+                            s.clone(),
+                            "inputs",
+                            format!(
+                                "`{n}` must be given by `observations` (without a pooled \
+                                 standard deviation) to be observed together with others"
+                            ),
+                        ));
+                    }
+                    if let Some(prev) = grouped.insert(i, g) {
+                        return Err(r.err(
+                            s.clone(),
+                            "inputs",
+                            format!("`{n}` is already in observed_together[{prev}]"),
+                        ));
+                    }
+                    if idx.contains(&i) {
+                        return Err(r.err(s.clone(), "inputs", format!("`{n}` is named twice")));
+                    }
+                    idx.push(i);
+                }
+                let n0 = inputs[idx[0]].observations.as_ref().map_or(0, Vec::len);
+                for (&i, (n, s)) in idx.iter().zip(&names) {
+                    let len = inputs[i].observations.as_ref().map_or(0, Vec::len);
+                    if len != n0 {
+                        return Err(r.err(
+                            s.clone(),
+                            "inputs",
+                            format!(
+                                "`{n}` has {len} observations but `{}` has {n0}; inputs observed \
+                                 together need the same number, taken pairwise",
+                                names[0].0
+                            ),
+                        ));
+                    }
+                }
+                for (x, &i) in idx.iter().enumerate() {
+                    for &j in &idx[x + 1..] {
+                        let a = inputs[i]
+                            .observations
+                            .as_ref()
+                            .expect("Type A has observations");
+                        let b = inputs[j]
+                            .observations
+                            .as_ref()
+                            .expect("Type A has observations");
+                        let r = typea::correlation(a, b);
+                        correlations.push(Correlation {
+                            a: i,
+                            b: j,
+                            coefficient: r,
+                            from_observations: true,
+                        });
+                    }
+                }
+            }
+        }
+
+        // Stated correlations.
+        if let Some((items, _)) = top.array("correlations")? {
+            for (c, item) in items.iter().enumerate() {
+                let path = format!("correlations[{c}]");
+                let DeValue::Table(t) = item.get_ref() else {
+                    return Err(doc.error(
+                        item.span(),
+                        &path,
+                        "expected a table with `inputs = [\"a\", \"b\"]` and `coefficient`",
+                    ));
+                };
+                let mut r = Reader::new(doc, &path, t, item.span());
+                let Some((names, span)) = r.names("inputs")? else {
+                    return Err(doc.error(item.span(), &path, "missing `inputs = [\"a\", \"b\"]`"));
+                };
+                let Some(coef) = r.number("coefficient")? else {
+                    return Err(doc.error(item.span(), &path, "missing `coefficient`"));
+                };
+                r.finish(&["inputs", "coefficient"])?;
+                if names.len() != 2 {
+                    return Err(r.err(span, "inputs", "a correlation names exactly two inputs"));
+                }
+                let mut idx = [0usize; 2];
+                for (slot, (n, s)) in idx.iter_mut().zip(&names) {
+                    *slot = index_of(&inputs, n)
+                        .ok_or_else(|| r.err(s.clone(), "inputs", unknown_input(n, &inputs)))?;
+                }
+                if idx[0] == idx[1] {
+                    return Err(r.err(span, "inputs", "an input cannot be correlated with itself"));
+                }
+                if !(-1.0..=1.0).contains(&coef.value) {
+                    return Err(r.err(
+                        coef.span,
+                        "coefficient",
+                        format!(
+                            "a correlation coefficient lies in [-1, 1], found {}",
+                            coef.text
+                        ),
+                    ));
+                }
+                if let Some(prev) = correlations
+                    .iter()
+                    .find(|x| (x.a == idx[0] && x.b == idx[1]) || (x.a == idx[1] && x.b == idx[0]))
+                {
+                    let why = if prev.from_observations {
+                        "their correlation already comes from observations taken together"
+                    } else {
+                        "this pair is already correlated above"
+                    };
+                    return Err(r.err(
+                        span,
+                        "inputs",
+                        format!("`{}` and `{}`: {why}", names[0].0, names[1].0),
+                    ));
+                }
+                for &i in &idx {
+                    if inputs[i].standard_uncertainty == 0.0 && coef.value != 0.0 {
+                        return Err(r.err(
+                            span.clone(),
+                            "inputs",
+                            format!(
+                                "`{}` has no uncertainty, so it cannot be correlated",
+                                inputs[i].name
+                            ),
+                        ));
+                    }
+                }
+                correlations.push(Correlation {
+                    a: idx[0],
+                    b: idx[1],
+                    coefficient: coef.value,
+                    from_observations: false,
+                });
+            }
+        }
+        crate::matrix::check_correlations(&inputs, &correlations)
+            .map_err(|m| doc.error(top.span_of("correlations"), "correlations", m))?;
+
+        // Measurands.
+        let mut measurands: Vec<Measurand> = Vec::new();
+        let Some((items, mspan)) = top.array("measurands")? else {
+            return Err(doc.error(
+                0..0,
+                "measurands",
+                "the model has no measurands; add [[measurands]] with name and formula",
+            ));
+        };
+        if items.is_empty() {
+            return Err(doc.error(mspan, "measurands", "the list of measurands is empty"));
+        }
+        for (m, item) in items.iter().enumerate() {
+            let path = format!("measurands[{m}]");
+            let DeValue::Table(t) = item.get_ref() else {
+                return Err(doc.error(
+                    item.span(),
+                    &path,
+                    "expected a table with name and formula",
+                ));
+            };
+            let mut r = Reader::new(doc, &path, t, item.span());
+            let Some((name, nspan)) = r.string("name")? else {
+                return Err(doc.error(item.span(), &path, "missing `name`"));
+            };
+            check_name(doc, &name, nspan.clone(), &join(&path, "name"))?;
+            if inputs.iter().any(|i| i.name == name) || measurands.iter().any(|x| x.name == name) {
+                return Err(r.err(nspan, "name", format!("`{name}` is defined twice")));
+            }
+            let Some((formula_text, fspan)) = r.string("formula")? else {
+                return Err(doc.error(item.span(), &path, "missing `formula`"));
+            };
+            let formula = parse(&formula_text)
+                .map_err(|e| self.formula_error(&r, "formula", fspan.clone(), &formula_text, &e))?;
+            let description = r.string("description")?.map(|x| x.0);
+            let unit = r.string("unit")?.map(|x| x.0);
+            let stated = |n: Option<Num>| {
+                n.map(|n| Stated {
+                    value: n.value,
+                    line: doc.line(&n.span),
+                    text: n.text,
+                })
+            };
+            let expected_value = stated(r.number("expected_value")?);
+            let expected_standard_uncertainty = stated(r.number("expected_standard_uncertainty")?);
+            r.finish(MEASURAND_KEYS)?;
+            measurands.push(Measurand {
+                name,
+                formula_text,
+                formula,
+                description,
+                unit,
+                expected_value,
+                expected_standard_uncertainty,
+                line: doc.line(&item.span()),
+            });
+            // Names in the formula are checked once all measurands are known.
+            let _ = fspan;
+        }
+        self.check_formula_names(&inputs, &measurands, items)?;
+        let measurands = order_measurands(doc, measurands, items)?;
+
+        for p in pending {
+            self.resolve_sensitivity(p, &mut inputs, &measurands)?;
+        }
+        top.finish(TOP_KEYS)?;
+        Ok(Model {
+            title,
+            coverage_probability,
+            dof_rounding,
+            inputs,
+            correlations,
+            measurands,
+        })
+    }
+
+    fn formula_error(
+        &self,
+        r: &Reader,
+        key: &str,
+        span: Range<usize>,
+        text: &str,
+        e: &FormulaError,
+    ) -> ModelError {
+        let mut err = r.err(span, key, e.message.clone());
+        err.detail = Some(incertus_expr::caret(text, e.span));
+        err
+    }
+
+    fn check_formula_names(
+        &self,
+        inputs: &[Input],
+        measurands: &[Measurand],
+        items: &DeArray,
+    ) -> Result<()> {
+        for (m, meas) in measurands.iter().enumerate() {
+            let item = &items[m];
+            let DeValue::Table(t) = item.get_ref() else {
+                continue;
+            };
+            let r = Reader::new(self.doc, &format!("measurands[{m}]"), t, item.span());
+            for (name, span) in var_spans(&meas.formula) {
+                if inputs.iter().any(|i| i.name == name)
+                    || measurands.iter().any(|x| x.name == name)
+                {
+                    continue;
+                }
+                let mut msg = format!("`{name}` is neither an input nor a measurand");
+                let all = inputs
+                    .iter()
+                    .map(|i| i.name.as_str())
+                    .chain(measurands.iter().map(|x| x.name.as_str()));
+                if let Some(c) = closest(&name, all) {
+                    msg.push_str(&format!("; did you mean `{c}`?"));
+                } else if constants::find(&name).is_some() {
+                    msg.push_str(&format!(
+                        "; to use the physical constant, add [inputs.{name}] with constant = \"{name}\""
+                    ));
+                }
+                let e = FormulaError::new(incertus_expr::ErrorKind::Name, msg, span);
+                return Err(self.formula_error(
+                    &r,
+                    "formula",
+                    r.span_of("formula"),
+                    &meas.formula_text,
+                    &e,
+                ));
+            }
+        }
+        Ok(())
+    }
+
+    fn input(&self, name: &str, r: &mut Reader, line: usize) -> Result<Input> {
+        let value = r.number("value")?;
+        let su = r.number("standard_uncertainty")?;
+        let eu = r.number("expanded_uncertainty")?;
+        let k = r.number("coverage_factor")?;
+        let dof = r.number("dof")?;
+        let rr = r.number("relative_reliability")?;
+        let dist = r.string("distribution")?;
+        let hw = r.number("half_width")?;
+        let lower = r.number("lower")?;
+        let upper = r.number("upper")?;
+        let beta = r.number("beta")?;
+        let obs = r.numbers("observations")?;
+        let pooled = r.number("pooled_standard_deviation")?;
+        let pooled_dof = r.number("pooled_dof")?;
+        let constant = r.string("constant")?;
+        let description = r.string("description")?.map(|x| x.0);
+        let unit = r.string("unit")?.map(|x| x.0);
+
+        // Exactly one description of the uncertainty.
+        let mut ways: Vec<(&str, Range<usize>)> = Vec::new();
+        if let Some(n) = &su {
+            ways.push(("standard_uncertainty", n.span.clone()));
+        }
+        if let Some(n) = &eu {
+            ways.push(("expanded_uncertainty", n.span.clone()));
+        }
+        if let Some(n) = &hw {
+            ways.push(("half_width", n.span.clone()));
+        }
+        if lower.is_some() || upper.is_some() {
+            let s = lower
+                .as_ref()
+                .or(upper.as_ref())
+                .expect("one is given")
+                .span
+                .clone();
+            ways.push(("lower/upper", s));
+        }
+        if let Some((_, s)) = &obs {
+            ways.push(("observations", s.clone()));
+        }
+        if let Some((_, s)) = &constant {
+            ways.push(("constant", s.clone()));
+        }
+        if ways.len() > 1 {
+            let (line2, _) = self.doc.line_col(ways[1].1.start);
+            let (line1, _) = self.doc.line_col(ways[0].1.start);
+            return Err(r.err(
+                ways[1].1.clone(),
+                ways[1].0,
+                format!(
+                    "two descriptions of the uncertainty of `{name}`: {} (line {line1}) and {} \
+                     (line {line2}); give one",
+                    ways[0].0, ways[1].0
+                ),
+            ));
+        }
+        let positive = |n: &Option<Num>, key: &str, allow_zero: bool| -> Result<()> {
+            if let Some(n) = n {
+                if n.value < 0.0 || (!allow_zero && n.value == 0.0) {
+                    return Err(r.err(
+                        n.span.clone(),
+                        key,
+                        format!(
+                            "must be {}, found {}",
+                            if allow_zero {
+                                "zero or positive"
+                            } else {
+                                "positive"
+                            },
+                            n.text
+                        ),
+                    ));
+                }
+            }
+            Ok(())
+        };
+        positive(&su, "standard_uncertainty", true)?;
+        positive(&eu, "expanded_uncertainty", true)?;
+        positive(&k, "coverage_factor", false)?;
+        positive(&dof, "dof", false)?;
+        positive(&rr, "relative_reliability", false)?;
+        positive(&hw, "half_width", true)?;
+        positive(&pooled, "pooled_standard_deviation", true)?;
+        positive(&pooled_dof, "pooled_dof", false)?;
+        if let (Some(d), Some(_)) = (&dof, &rr) {
+            return Err(r.err(
+                d.span.clone(),
+                "dof",
+                "give dof or relative_reliability, not both (relative_reliability sets dof = 1/(2 r²))",
+            ));
+        }
+        // dof from a stated dof or relative reliability (JCGM 100:2008, G.4.2).
+        let stated_dof: Dof = dof
+            .as_ref()
+            .map(|d| d.value)
+            .or_else(|| rr.as_ref().map(|r| 0.5 / (r.value * r.value)));
+        let forbid = |n: &Option<Num>, key: &str, why: &str| -> Result<()> {
+            match n {
+                Some(n) => Err(r.err(n.span.clone(), key, why.to_string())),
+                None => Ok(()),
+            }
+        };
+        let dist_name = dist.as_ref().map(|(s, _)| s.as_str());
+        let dist_span = dist.as_ref().map(|(_, s)| s.clone());
+        let bad_dist = |allowed: &str| -> ModelError {
+            r.err(
+                dist_span.clone().unwrap_or(r.span.clone()),
+                "distribution",
+                format!(
+                    "`{}` does not fit this description of the input; {allowed}",
+                    dist_name.unwrap_or("")
+                ),
+            )
+        };
+        let mut input = Input {
+            name: name.to_string(),
+            estimate: 0.0,
+            standard_uncertainty: 0.0,
+            dof: None,
+            evaluation: Evaluation::TypeB,
+            distribution: Distribution::Normal,
+            observations: None,
+            description,
+            unit,
+            stated_sensitivities: Vec::new(),
+            line,
+        };
+        if let (Some(k), None) = (&k, &eu) {
+            return Err(r.err(
+                k.span.clone(),
+                "coverage_factor",
+                "coverage_factor goes with expanded_uncertainty",
+            ));
+        }
+        if let (Some(pd), None) = (&pooled_dof, &pooled) {
+            return Err(r.err(
+                pd.span.clone(),
+                "pooled_dof",
+                "pooled_dof goes with pooled_standard_deviation",
+            ));
+        }
+        if obs.is_none() {
+            forbid(
+                &pooled,
+                "pooled_standard_deviation",
+                "a pooled standard deviation goes with observations",
+            )?;
+        }
+        if beta.is_some() && dist_name != Some("trapezoidal") {
+            forbid(
+                &beta,
+                "beta",
+                "beta goes with distribution = \"trapezoidal\"",
+            )?;
+        }
+
+        if let Some((cname, cspan)) = constant {
+            let Some(c) = constants::find(&cname) else {
+                let names: Vec<&str> = constants::TABLE.iter().map(|c| c.name).collect();
+                let mut msg = format!(
+                    "no constant named `{cname}` in the {} table",
+                    constants::ADJUSTMENT
+                );
+                if let Some(close) = closest(&cname, names.iter().copied()) {
+                    msg.push_str(&format!("; did you mean `{close}`?"));
+                }
+                let mut e = r.err(cspan, "constant", msg);
+                e.detail = Some(format!("constants: {}", names.join(", ")));
+                return Err(e);
+            };
+            for (key, n) in [
+                ("value", &value),
+                ("dof", &dof),
+                ("relative_reliability", &rr),
+            ] {
+                forbid(
+                    n,
+                    key,
+                    "a tabulated constant takes its value and uncertainty from the table",
+                )?;
+            }
+            if dist.is_some() {
+                return Err(bad_dist(
+                    "a constant takes its distribution from the table (normal, or exact)",
+                ));
+            }
+            input.estimate = c.value;
+            input.standard_uncertainty = c.standard_uncertainty;
+            input.evaluation = Evaluation::Constant {
+                table: constants::ADJUSTMENT,
+            };
+            input.distribution = if c.is_exact() {
+                Distribution::Exact
+            } else {
+                Distribution::Normal
+            };
+            if input.unit.is_none() {
+                input.unit = Some(c.unit.to_string());
+            }
+            return Ok(input);
+        }
+
+        if let Some((values, ospan)) = obs {
+            forbid(
+                &value,
+                "value",
+                "the estimate of a Type A input is the mean of its observations",
+            )?;
+            forbid(&dof, "dof", "the dof of a Type A input is n - 1, or pooled_dof with a pooled standard deviation")?;
+            forbid(
+                &rr,
+                "relative_reliability",
+                "relative_reliability goes with a Type B evaluation",
+            )?;
+            if dist_name.is_some_and(|d| d != "t") {
+                return Err(bad_dist(
+                    "observations give a t distribution (JCGM 101:2008, 6.4.9)",
+                ));
+            }
+            let n = values.len();
+            if n < 2 {
+                return Err(r.err(
+                    ospan,
+                    "observations",
+                    format!("a Type A evaluation needs at least two observations, found {n}"),
+                ));
+            }
+            let mean = typea::mean(&values);
+            let (s, nu) = match &pooled {
+                Some(p) => {
+                    let Some(pd) = &pooled_dof else {
+                        return Err(r.err(
+                            p.span.clone(),
+                            "pooled_standard_deviation",
+                            "give pooled_dof, the degrees of freedom of the pooled standard \
+                             deviation (JCGM 100:2008, 4.2.4)",
+                        ));
+                    };
+                    (p.value, pd.value)
+                }
+                None => {
+                    let s = typea::std_dev(&values);
+                    (s, (n - 1) as f64)
+                }
+            };
+            input.estimate = mean;
+            input.standard_uncertainty = s / (n as f64).sqrt();
+            input.dof = Some(nu);
+            input.evaluation = Evaluation::TypeA {
+                n,
+                pooled: pooled.is_some(),
+            };
+            input.distribution = Distribution::StudentT;
+            input.observations = Some(values);
+            return Ok(input);
+        }
+
+        if let Some(eu) = eu {
+            let Some(k) = k else {
+                return Err(r.err(
+                    eu.span,
+                    "expanded_uncertainty",
+                    "give coverage_factor with expanded_uncertainty (u = U/k, JCGM 100:2008, 4.3.3)",
+                ));
+            };
+            let Some(v) = value else {
+                return Err(r.err(
+                    r.span.clone(),
+                    "value",
+                    format!("`{name}` needs a value (its estimate)"),
+                ));
+            };
+            let dist = match dist_name {
+                None | Some("normal") => Distribution::Normal,
+                Some("t") if stated_dof.is_some() => Distribution::StudentT,
+                _ => {
+                    return Err(bad_dist(
+                        "an expanded uncertainty goes with \"normal\" or, with dof, \"t\"",
+                    ))
+                }
+            };
+            input.estimate = v.value;
+            input.standard_uncertainty = eu.value / k.value;
+            input.dof = stated_dof;
+            input.distribution = dist;
+            return Ok(input);
+        }
+
+        if let Some(su) = su {
+            let Some(v) = value else {
+                return Err(r.err(
+                    r.span.clone(),
+                    "value",
+                    format!("`{name}` needs a value (its estimate)"),
+                ));
+            };
+            let dist = match dist_name {
+                None | Some("normal") => Distribution::Normal,
+                Some("t") => {
+                    if stated_dof.is_none() {
+                        return Err(bad_dist("a t distribution needs dof"));
+                    }
+                    Distribution::StudentT
+                }
+                Some(other) => {
+                    return Err(bad_dist(&format!(
+                        "for a {other} distribution give half_width or lower and upper instead of \
+                         standard_uncertainty"
+                    )))
+                }
+            };
+            input.estimate = v.value;
+            input.standard_uncertainty = su.value;
+            input.dof = stated_dof;
+            input.distribution = dist;
+            return Ok(input);
+        }
+
+        if hw.is_some() || lower.is_some() || upper.is_some() {
+            let (estimate, half_width) = match (&hw, &lower, &upper) {
+                (Some(h), None, None) => {
+                    let Some(v) = &value else {
+                        return Err(r.err(
+                            h.span.clone(),
+                            "half_width",
+                            format!("`{name}` needs a value to put the half_width around"),
+                        ));
+                    };
+                    (v.value, h.value)
+                }
+                (None, Some(lo), Some(up)) => {
+                    if up.value < lo.value {
+                        return Err(r.err(
+                            up.span.clone(),
+                            "upper",
+                            format!("upper ({}) is below lower ({})", up.text, lo.text),
+                        ));
+                    }
+                    let mid = 0.5 * (lo.value + up.value);
+                    if let Some(v) = &value {
+                        if (v.value - mid).abs() > 1e-12 * mid.abs().max(up.value - lo.value) {
+                            return Err(r.err(
+                                v.span.clone(),
+                                "value",
+                                format!(
+                                    "the estimate of a symmetric distribution is the midpoint of its \
+                                     limits ({mid}); omit value, or give value with half_width \
+                                     (JCGM 100:2008, 4.3.7)"
+                                ),
+                            ));
+                        }
+                    }
+                    (mid, 0.5 * (up.value - lo.value))
+                }
+                (None, Some(x), None) | (None, None, Some(x)) => {
+                    return Err(r.err(x.span.clone(), "lower", "give both lower and upper"));
+                }
+                _ => unreachable!("two descriptions were refused above"),
+            };
+            let dist = match dist_name {
+                Some("rectangular") => Distribution::Rectangular { half_width },
+                Some("triangular") => Distribution::Triangular { half_width },
+                Some("arcsine") => Distribution::Arcsine { half_width },
+                Some("trapezoidal") => {
+                    let Some(b) = &beta else {
+                        return Err(bad_dist(
+                            "a trapezoidal distribution needs beta, the ratio of the half-widths \
+                             of its top and its base (0 to 1)",
+                        ));
+                    };
+                    if !(0.0..=1.0).contains(&b.value) {
+                        return Err(r.err(
+                            b.span.clone(),
+                            "beta",
+                            format!("beta lies in [0, 1], found {}", b.text),
+                        ));
+                    }
+                    Distribution::Trapezoidal {
+                        half_width,
+                        beta: b.value,
+                    }
+                }
+                None => return Err(r.err(
+                    r.span.clone(),
+                    "distribution",
+                    "limits need a distribution: \"rectangular\", \"triangular\", \"arcsine\" or \
+                         \"trapezoidal\"",
+                )),
+                Some(_) => {
+                    return Err(bad_dist(
+                        "limits go with rectangular, triangular, arcsine or trapezoidal",
+                    ))
+                }
+            };
+            input.estimate = estimate;
+            input.standard_uncertainty = dist
+                .standard_uncertainty_from_limits()
+                .expect("a distribution with limits");
+            input.dof = stated_dof;
+            input.distribution = dist;
+            return Ok(input);
+        }
+
+        // Only a value: exact.
+        let Some(v) = value else {
+            return Err(r.err(
+                r.span.clone(),
+                "",
+                format!(
+                    "`{name}` has no value: give value (and an uncertainty), observations, limits \
+                     or constant"
+                ),
+            ));
+        };
+        forbid(&dof, "dof", "an exact value has no degrees of freedom")?;
+        forbid(
+            &rr,
+            "relative_reliability",
+            "an exact value has no uncertainty to be reliable",
+        )?;
+        if dist_name.is_some_and(|d| d != "exact") {
+            return Err(bad_dist("a value without an uncertainty is exact"));
+        }
+        input.estimate = v.value;
+        input.evaluation = Evaluation::Exact;
+        input.distribution = Distribution::Exact;
+        Ok(input)
+    }
+
+    fn collect_sensitivity(
+        &self,
+        input: usize,
+        v: &Spanned<DeValue>,
+        path: &str,
+        pending: &mut Vec<PendingSensitivity>,
+    ) -> Result<()> {
+        let path = join(path, "sensitivity");
+        match v.get_ref() {
+            DeValue::Table(t) => {
+                for (k, val) in t.iter() {
+                    pending.push(PendingSensitivity {
+                        input,
+                        measurand: Some((k.get_ref().to_string(), k.span())),
+                        value: raw_sensitivity(val),
+                        span: val.span(),
+                        path: join(&path, k.get_ref()),
+                    });
+                }
+            }
+            _ => pending.push(PendingSensitivity {
+                input,
+                measurand: None,
+                value: raw_sensitivity(v),
+                span: v.span(),
+                path,
+            }),
+        }
+        Ok(())
+    }
+
+    fn resolve_sensitivity(
+        &self,
+        p: PendingSensitivity,
+        inputs: &mut [Input],
+        measurands: &[Measurand],
+    ) -> Result<()> {
+        let doc = self.doc;
+        let measurand = match &p.measurand {
+            Some((m, span)) => {
+                if !measurands.iter().any(|x| &x.name == m) {
+                    return Err(doc.error(
+                        span.clone(),
+                        &p.path,
+                        format!("no measurand named `{m}`"),
+                    ));
+                }
+                m.clone()
+            }
+            None => {
+                if measurands.len() != 1 {
+                    return Err(doc.error(
+                        p.span.clone(),
+                        &p.path,
+                        "the model has several measurands: give sensitivity = { measurand = ... }",
+                    ));
+                }
+                measurands[0].name.clone()
+            }
+        };
+        let line = doc.line(&p.span);
+        let stated = match p.value {
+            RawSensitivity::Number(n) => StatedSensitivity::Number(Stated {
+                value: n.value,
+                text: n.text,
+                line,
+            }),
+            RawSensitivity::Formula(s) => {
+                let expr = parse(&s).map_err(|e| {
+                    let mut err = doc.error(p.span.clone(), &p.path, e.message.clone());
+                    err.detail = Some(incertus_expr::caret(&s, e.span));
+                    err
+                })?;
+                for (name, span) in var_spans(&expr) {
+                    if !inputs.iter().any(|i| i.name == name)
+                        && !measurands.iter().any(|m| m.name == name)
+                    {
+                        let mut err = doc.error(
+                            p.span.clone(),
+                            &p.path,
+                            format!("`{name}` is neither an input nor a measurand"),
+                        );
+                        err.detail = Some(incertus_expr::caret(&s, span));
+                        return Err(err);
+                    }
+                }
+                StatedSensitivity::Formula {
+                    text: s,
+                    expr,
+                    line,
+                }
+            }
+            RawSensitivity::Other(t) => {
+                return Err(doc.error(
+                    p.span.clone(),
+                    &p.path,
+                    format!("expected a number or a formula (a string), found {t}"),
+                ))
+            }
+        };
+        inputs[p.input]
+            .stated_sensitivities
+            .push((measurand, stated));
+        Ok(())
+    }
+}
+
+fn unknown_input(n: &str, inputs: &[Input]) -> String {
+    let mut msg = format!("`{n}` is not an input");
+    if let Some(c) = closest(n, inputs.iter().map(|i| i.name.as_str())) {
+        msg.push_str(&format!("; did you mean `{c}`?"));
+    }
+    msg
+}
+
+/// Every name in a formula with the span of its first use.
+fn var_spans(e: &Expr) -> Vec<(String, incertus_expr::Span)> {
+    let mut out: Vec<(String, incertus_expr::Span)> = Vec::new();
+    let mut stack = vec![e];
+    while let Some(x) = stack.pop() {
+        if let Kind::Var(n) = &x.kind {
+            if !out.iter().any(|(o, _)| o == n) {
+                out.push((n.clone(), x.span));
+            }
+        }
+        let mut ch = x.children();
+        ch.reverse();
+        stack.extend(ch);
+    }
+    out
+}
+
+/// Order measurands so that each comes after those it uses; a cycle is an
+/// error naming it.
+fn order_measurands(doc: &Doc, ms: Vec<Measurand>, items: &DeArray) -> Result<Vec<Measurand>> {
+    let n = ms.len();
+    let deps: Vec<Vec<usize>> = ms
+        .iter()
+        .map(|m| {
+            let names = m.formula.names();
+            (0..n).filter(|&j| names.contains(&ms[j].name)).collect()
+        })
+        .collect();
+    // Depth-first search with colours, reporting the first cycle found.
+    let mut state = vec![0u8; n]; // 0 new, 1 on the path, 2 done
+    let mut order = Vec::with_capacity(n);
+    fn visit(
+        i: usize,
+        deps: &[Vec<usize>],
+        state: &mut [u8],
+        order: &mut Vec<usize>,
+        path: &mut Vec<usize>,
+    ) -> Option<Vec<usize>> {
+        state[i] = 1;
+        path.push(i);
+        for &j in &deps[i] {
+            if state[j] == 1 {
+                let start = path.iter().position(|&p| p == j).expect("j is on the path");
+                let mut cycle = path[start..].to_vec();
+                cycle.push(j);
+                return Some(cycle);
+            }
+            if state[j] == 0 {
+                if let Some(c) = visit(j, deps, state, order, path) {
+                    return Some(c);
+                }
+            }
+        }
+        path.pop();
+        state[i] = 2;
+        order.push(i);
+        None
+    }
+    for i in 0..n {
+        if state[i] == 0 {
+            let mut path = Vec::new();
+            if let Some(cycle) = visit(i, &deps, &mut state, &mut order, &mut path) {
+                let names: Vec<&str> = cycle.iter().map(|&c| ms[c].name.as_str()).collect();
+                let first = cycle[0];
+                return Err(doc.error(
+                    items[first].span(),
+                    &format!("measurands[{first}]"),
+                    format!(
+                        "the measurands depend on one another in a cycle: {}",
+                        names.join(" -> ")
+                    ),
+                ));
+            }
+        }
+    }
+    let mut slots: Vec<Option<Measurand>> = ms.into_iter().map(Some).collect();
+    Ok(order
+        .into_iter()
+        .map(|i| slots[i].take().expect("each measurand once"))
+        .collect())
+}

@@ -1,0 +1,218 @@
+//! A measurement model: input quantities with what is known about them,
+//! correlations, and one or more measurands given by formulas.
+//!
+//! Each input quantity ends up with an estimate, a standard uncertainty and
+//! degrees of freedom by one of the evaluations of JCGM 100:2008, clause 4:
+//! Type A from observations (4.2), Type B from a stated uncertainty, an
+//! expanded uncertainty and coverage factor (4.3.3), or limits with an assumed
+//! distribution (4.3.7 to 4.3.9), plus exact values and tabulated constants.
+
+use incertus_expr::Expr;
+
+/// Degrees of freedom: `None` means infinite.
+pub type Dof = Option<f64>;
+
+/// How the standard uncertainty of an input was obtained.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Evaluation {
+    /// Type A from `n` observations (JCGM 100:2008, 4.2); `pooled` when the
+    /// standard deviation came from earlier work (4.2.4).
+    TypeA { n: usize, pooled: bool },
+    /// Type B (JCGM 100:2008, 4.3).
+    TypeB,
+    /// No uncertainty: an exact value or an exact constant.
+    Exact,
+    /// A tabulated physical constant.
+    Constant { table: &'static str },
+}
+
+/// The probability distribution assigned to an input (used by the budget's
+/// labels and by propagation of distributions).
+#[derive(Clone, Debug, PartialEq)]
+pub enum Distribution {
+    Normal,
+    /// Scaled and shifted t with the input's degrees of freedom.
+    StudentT,
+    Rectangular {
+        half_width: f64,
+    },
+    Triangular {
+        half_width: f64,
+    },
+    Arcsine {
+        half_width: f64,
+    },
+    /// Symmetric trapezoid: half-width of the base `half_width`, of the top
+    /// `beta * half_width` (JCGM 100:2008, 4.3.9).
+    Trapezoidal {
+        half_width: f64,
+        beta: f64,
+    },
+    /// A fixed value.
+    Exact,
+}
+
+impl Distribution {
+    /// The name used in files and reports.
+    pub fn name(&self) -> &'static str {
+        match self {
+            Distribution::Normal => "normal",
+            Distribution::StudentT => "t",
+            Distribution::Rectangular { .. } => "rectangular",
+            Distribution::Triangular { .. } => "triangular",
+            Distribution::Arcsine { .. } => "arcsine",
+            Distribution::Trapezoidal { .. } => "trapezoidal",
+            Distribution::Exact => "exact",
+        }
+    }
+
+    /// Standard uncertainty of a distribution with limits, from its
+    /// half-width a: a/√3 (rectangular, JCGM 100:2008, 4.3.7), a/√6
+    /// (triangular, 4.3.9), a/√2 (arc sine, JCGM 101:2008, 6.4.6),
+    /// a·√((1 + β²)/6) (trapezoidal, JCGM 100:2008, 4.3.9).
+    pub fn standard_uncertainty_from_limits(&self) -> Option<f64> {
+        Some(match *self {
+            Distribution::Rectangular { half_width } => half_width / 3f64.sqrt(),
+            Distribution::Triangular { half_width } => half_width / 6f64.sqrt(),
+            Distribution::Arcsine { half_width } => half_width / 2f64.sqrt(),
+            Distribution::Trapezoidal { half_width, beta } => {
+                half_width * ((1.0 + beta * beta) / 6.0).sqrt()
+            }
+            _ => return None,
+        })
+    }
+}
+
+/// A number as written in the model file: its value and its text, so that
+/// checks can allow for the rounding of a stated figure.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Stated {
+    pub value: f64,
+    pub text: String,
+    /// 1-based line in the model file.
+    pub line: usize,
+}
+
+impl Stated {
+    /// Half a unit in the last digit written (`0.0123` → 0.00005,
+    /// `1.5e-3` → 0.05e-3, `12` → 0.5): the rounding a stated figure implies
+    /// (JCGM 100:2008, 7.2.6, common practice of reading rounded figures).
+    pub fn rounding(&self) -> f64 {
+        let t = self.text.replace('_', "");
+        let (mantissa, exponent) = match t.find(['e', 'E']) {
+            Some(i) => (&t[..i], t[i + 1..].parse::<i32>().unwrap_or(0)),
+            None => (&t[..], 0),
+        };
+        let decimals = mantissa.find('.').map_or(0, |i| mantissa.len() - i - 1) as i32;
+        0.5 * 10f64.powi(exponent - decimals)
+    }
+}
+
+/// A sensitivity coefficient stated by the model's author, for checking.
+#[derive(Clone, Debug)]
+pub enum StatedSensitivity {
+    Number(Stated),
+    Formula {
+        text: String,
+        expr: Expr,
+        line: usize,
+    },
+}
+
+/// One input quantity.
+#[derive(Clone, Debug)]
+pub struct Input {
+    pub name: String,
+    pub estimate: f64,
+    pub standard_uncertainty: f64,
+    pub dof: Dof,
+    pub evaluation: Evaluation,
+    pub distribution: Distribution,
+    /// Observations of a Type A input, in the order given.
+    pub observations: Option<Vec<f64>>,
+    pub description: Option<String>,
+    pub unit: Option<String>,
+    /// Sensitivity coefficients the author derived, per measurand name.
+    pub stated_sensitivities: Vec<(String, StatedSensitivity)>,
+    /// 1-based line where the input is defined.
+    pub line: usize,
+}
+
+/// A correlation coefficient between two inputs.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Correlation {
+    pub a: usize,
+    pub b: usize,
+    pub coefficient: f64,
+    /// Whether it was computed from observations taken together
+    /// (JCGM 100:2008, 5.2.3) rather than stated.
+    pub from_observations: bool,
+}
+
+/// One measurand (output quantity).
+#[derive(Clone, Debug)]
+pub struct Measurand {
+    pub name: String,
+    /// The formula as written.
+    pub formula_text: String,
+    pub formula: Expr,
+    pub description: Option<String>,
+    pub unit: Option<String>,
+    pub expected_value: Option<Stated>,
+    pub expected_standard_uncertainty: Option<Stated>,
+    pub line: usize,
+}
+
+/// How ν_eff becomes the dof used for the coverage factor.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum DofRounding {
+    /// To the next lower integer (JCGM 100:2008, G.4.1 and G.6.4).
+    Truncate,
+    /// Use ν_eff as computed (Student's t accepts any positive ν).
+    Exact,
+}
+
+/// A whole measurement model.
+#[derive(Clone, Debug)]
+pub struct Model {
+    pub title: Option<String>,
+    pub coverage_probability: f64,
+    pub dof_rounding: DofRounding,
+    pub inputs: Vec<Input>,
+    pub correlations: Vec<Correlation>,
+    /// In dependency order: a measurand comes after those it uses.
+    pub measurands: Vec<Measurand>,
+}
+
+impl Model {
+    pub fn input(&self, name: &str) -> Option<&Input> {
+        self.inputs.iter().find(|i| i.name == name)
+    }
+
+    /// Correlation coefficient between inputs `i` and `j`.
+    pub fn correlation(&self, i: usize, j: usize) -> f64 {
+        if i == j {
+            return 1.0;
+        }
+        self.correlations
+            .iter()
+            .find(|c| (c.a == i && c.b == j) || (c.a == j && c.b == i))
+            .map_or(0.0, |c| c.coefficient)
+    }
+
+    /// The covariance matrix of the input estimates (JCGM 100:2008, 5.2.2).
+    pub fn covariance(&self) -> Vec<Vec<f64>> {
+        let n = self.inputs.len();
+        let u: Vec<f64> = self.inputs.iter().map(|i| i.standard_uncertainty).collect();
+        let mut v = vec![vec![0.0; n]; n];
+        for (i, row) in v.iter_mut().enumerate() {
+            row[i] = u[i] * u[i];
+        }
+        for c in &self.correlations {
+            let x = c.coefficient * u[c.a] * u[c.b];
+            v[c.a][c.b] = x;
+            v[c.b][c.a] = x;
+        }
+        v
+    }
+}

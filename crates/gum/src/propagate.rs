@@ -1,0 +1,563 @@
+//! The law of propagation of uncertainty (JCGM 100:2008, clause 5) for one
+//! or more measurands, with uncertainty budgets, effective degrees of
+//! freedom and coverage factors (Annex G), second-order terms (5.1.2 note),
+//! and the covariance of several measurands (JCGM 102:2011, 6.2.1.3).
+//!
+//! A measurand that uses earlier measurands is expanded into a formula of the
+//! inputs alone (by substitution), so shared inputs correlate the measurands
+//! and enter each budget correctly.
+//!
+//! Effective dof with correlated inputs: JCGM 100:2008, G.4.1 assumes
+//! independent components. Inputs linked by correlations are therefore
+//! grouped (connected components of the correlation graph); each group's
+//! joint contribution u_G² = Σ_{i,j∈G} c_i c_j u(x_i, x_j) enters the
+//! Welch-Satterthwaite formula as one component with the smallest dof in the
+//! group. For inputs observed together (5.2.3) all members share n − 1 dof,
+//! so this is exact in the sense of G.4.1; otherwise it is conservative. The
+//! report says when this was done.
+
+use incertus_expr::{derivative, print, simplify, Expr, Kind};
+use serde::Serialize;
+
+use crate::coverage::{coverage_factor, dof_used, welch_satterthwaite};
+use crate::model::{Distribution, Dof, Evaluation, Model};
+
+/// Options of one evaluation.
+#[derive(Clone, Debug, Default)]
+pub struct Options {
+    /// Overrides the model's coverage probability.
+    pub coverage_probability: Option<f64>,
+    /// Add the higher-order terms of JCGM 100:2008, 5.1.2 (note).
+    pub second_order: bool,
+}
+
+/// A problem found while propagating.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{message}{}", detail.as_ref().map(|d| format!("\n{d}")).unwrap_or_default())]
+pub struct PropagationError {
+    pub message: String,
+    pub detail: Option<String>,
+}
+
+fn perr(message: impl Into<String>, detail: Option<String>) -> PropagationError {
+    PropagationError {
+        message: message.into(),
+        detail,
+    }
+}
+
+/// One line of an uncertainty budget.
+#[derive(Clone, Debug, Serialize)]
+pub struct BudgetLine {
+    pub input: String,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    /// `None` = infinite.
+    pub dof: Option<f64>,
+    pub distribution: String,
+    /// "A", "B", "exact" or "constant".
+    pub evaluation: String,
+    /// Number of observations of a Type A input.
+    pub observations: Option<usize>,
+    pub unit: Option<String>,
+    pub description: Option<String>,
+    pub sensitivity: f64,
+    pub sensitivity_formula: String,
+    /// |c_i| u(x_i), the contribution u_i(y) (JCGM 100:2008, 5.1.3).
+    pub contribution: f64,
+    /// (c_i u(x_i))² / u_c²(y).
+    pub share: f64,
+}
+
+/// The term of a budget that comes from one correlated pair.
+#[derive(Clone, Debug, Serialize)]
+pub struct CorrelationLine {
+    pub inputs: [String; 2],
+    pub coefficient: f64,
+    /// 2 c_a c_b r u(x_a) u(x_b), in the unit of u²(y).
+    pub term: f64,
+    pub share: f64,
+    pub from_observations: bool,
+}
+
+/// The result for one measurand.
+#[derive(Clone, Debug, Serialize)]
+pub struct MeasurandResult {
+    pub name: String,
+    pub unit: Option<String>,
+    pub description: Option<String>,
+    pub formula: String,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub relative_standard_uncertainty: Option<f64>,
+    /// `None` = infinite.
+    pub effective_dof: Option<f64>,
+    /// The dof used for the coverage factor (after the rounding rule).
+    pub effective_dof_used: Option<f64>,
+    pub coverage_probability: f64,
+    pub coverage_factor: f64,
+    pub expanded_uncertainty: f64,
+    pub second_order_standard_uncertainty: Option<f64>,
+    pub budget: Vec<BudgetLine>,
+    /// Σ of the correlation terms, in the unit of u²(y).
+    pub correlation_terms: f64,
+    pub correlation_budget: Vec<CorrelationLine>,
+    /// Filled by propagation of distributions when it is run.
+    pub monte_carlo: Option<serde_json::Value>,
+}
+
+/// A square matrix with names.
+#[derive(Clone, Debug, Serialize)]
+pub struct NamedMatrix {
+    pub names: Vec<String>,
+    pub matrix: Vec<Vec<f64>>,
+}
+
+/// All results of a model.
+#[derive(Clone, Debug, Serialize)]
+pub struct Report {
+    pub title: Option<String>,
+    pub results: Vec<MeasurandResult>,
+    pub correlation_matrix: NamedMatrix,
+    pub covariance_matrix: NamedMatrix,
+    pub notes: Vec<String>,
+    pub effective_dof_rounding: String,
+}
+
+/// Replace each name of an earlier measurand by its formula of the inputs.
+pub fn substitute(e: &Expr, known: &[(String, Expr)]) -> Expr {
+    match &e.kind {
+        Kind::Var(n) => match known.iter().find(|(k, _)| k == n) {
+            Some((_, f)) => f.clone(),
+            None => e.clone(),
+        },
+        _ => {
+            let mut out = e.clone();
+            map_children(&mut out, &|c| substitute(c, known));
+            out
+        }
+    }
+}
+
+fn map_children(e: &mut Expr, f: &dyn Fn(&Expr) -> Expr) {
+    match &mut e.kind {
+        Kind::Num(_) | Kind::Pi | Kind::Var(_) => {}
+        Kind::Neg(a) => **a = f(a),
+        Kind::Sum(ts) => ts.iter_mut().for_each(|t| t.expr = f(&t.expr)),
+        Kind::Product(fs) => fs.iter_mut().for_each(|x| x.expr = f(&x.expr)),
+        Kind::Pow(a, b) => {
+            **a = f(a);
+            **b = f(b);
+        }
+        Kind::Call(_, args) => args.iter_mut().for_each(|a| *a = f(a)),
+    }
+}
+
+/// Each measurand as a formula of the inputs alone, in model order.
+pub fn expanded_formulas(model: &Model) -> Vec<(String, Expr)> {
+    let mut known: Vec<(String, Expr)> = Vec::new();
+    for m in &model.measurands {
+        let e = substitute(&m.formula, &known);
+        known.push((m.name.clone(), e));
+    }
+    known
+}
+
+fn label(model: &Model, i: usize) -> (String, Option<usize>) {
+    let inp = &model.inputs[i];
+    match inp.evaluation {
+        Evaluation::TypeA { n, .. } => ("A".into(), Some(n)),
+        Evaluation::TypeB => ("B".into(), None),
+        Evaluation::Exact => ("exact".into(), None),
+        Evaluation::Constant { .. } => ("constant".into(), None),
+    }
+}
+
+/// Union-find over inputs linked by a non-zero correlation.
+fn groups(model: &Model) -> Vec<usize> {
+    let n = model.inputs.len();
+    let mut parent: Vec<usize> = (0..n).collect();
+    fn find(p: &mut [usize], mut i: usize) -> usize {
+        while p[i] != i {
+            p[i] = p[p[i]];
+            i = p[i];
+        }
+        i
+    }
+    for c in &model.correlations {
+        if c.coefficient != 0.0 {
+            let (a, b) = (find(&mut parent, c.a), find(&mut parent, c.b));
+            parent[a] = b;
+        }
+    }
+    (0..n).map(|i| find(&mut parent, i)).collect()
+}
+
+/// Evaluate every measurand of the model.
+pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationError> {
+    let p = opts
+        .coverage_probability
+        .unwrap_or(model.coverage_probability);
+    if !(p > 0.0 && p < 1.0) {
+        return Err(perr(
+            format!("the coverage probability must lie strictly between 0 and 1, not {p}"),
+            None,
+        ));
+    }
+    let n = model.inputs.len();
+    let x: Vec<f64> = model.inputs.iter().map(|i| i.estimate).collect();
+    let u: Vec<f64> = model
+        .inputs
+        .iter()
+        .map(|i| i.standard_uncertainty)
+        .collect();
+    let input_env: Vec<(&str, f64)> = model
+        .inputs
+        .iter()
+        .map(|i| (i.name.as_str(), i.estimate))
+        .collect();
+    let group_of = groups(model);
+    let mut notes: Vec<String> = Vec::new();
+
+    // Values, in dependency order, each on its own formula (so that an error
+    // points into the text the user wrote).
+    let mut env: Vec<(&str, f64)> = input_env.clone();
+    let mut values = Vec::new();
+    for m in &model.measurands {
+        let v: f64 = m.formula.eval(env.as_slice()).map_err(|e| {
+            perr(
+                format!(
+                    "the formula of `{}` cannot be evaluated at the input estimates: {}",
+                    m.name, e.message
+                ),
+                Some(e.render(&m.formula_text)),
+            )
+        })?;
+        env.push((m.name.as_str(), v));
+        values.push(v);
+    }
+
+    let expanded = expanded_formulas(model);
+    let mut results = Vec::new();
+    let mut sens_rows: Vec<Vec<f64>> = Vec::new();
+    let mut grouped_note = false;
+    for (mi, m) in model.measurands.iter().enumerate() {
+        let f = &expanded[mi].1;
+        let y = values[mi];
+        let mut c = vec![0.0; n];
+        let mut formulas = vec![String::new(); n];
+        let mut used = Vec::new();
+        for i in 0..n {
+            let name = &model.inputs[i].name;
+            if !f.depends_on(name) {
+                continue;
+            }
+            let d = derivative(f, name);
+            let ci: f64 = d.eval(input_env.as_slice()).map_err(|e| {
+                perr(
+                    format!(
+                        "the sensitivity coefficient of `{name}` in `{}` is not defined at the input \
+                         estimates: {}",
+                        m.name, e.message
+                    ),
+                    Some(format!("∂{}/∂{name} = {}", m.name, print(&d))),
+                )
+            })?;
+            c[i] = ci;
+            formulas[i] = print(&d);
+            used.push(i);
+        }
+
+        // Scaled contributions w_i = c_i u_i / s avoid under- and overflow
+        // of squares and fourth powers (u near 1e-40 or 1e40).
+        let s = used
+            .iter()
+            .map(|&i| (c[i] * u[i]).abs())
+            .fold(0.0, f64::max);
+        let w: Vec<f64> = (0..n)
+            .map(|i| if s > 0.0 { c[i] * u[i] / s } else { 0.0 })
+            .collect();
+        let mut sum_sq = 0.0;
+        for &i in &used {
+            sum_sq += w[i] * w[i];
+        }
+        let mut corr_lines = Vec::new();
+        let mut corr_sum_scaled = 0.0;
+        for cor in &model.correlations {
+            if used.contains(&cor.a) && used.contains(&cor.b) {
+                let t = 2.0 * w[cor.a] * w[cor.b] * cor.coefficient;
+                corr_sum_scaled += t;
+                corr_lines.push((cor, t));
+            }
+        }
+        let total_scaled = (sum_sq + corr_sum_scaled).max(0.0);
+        let uc = s * total_scaled.sqrt();
+        let share = |t: f64| {
+            if total_scaled > 0.0 {
+                t / total_scaled
+            } else {
+                0.0
+            }
+        };
+
+        // Effective dof.
+        let mut components: Vec<(f64, Dof)> = Vec::new();
+        let mut seen_groups: Vec<usize> = Vec::new();
+        for &i in &used {
+            let g = group_of[i];
+            if seen_groups.contains(&g) {
+                continue;
+            }
+            seen_groups.push(g);
+            let members: Vec<usize> = used.iter().copied().filter(|&j| group_of[j] == g).collect();
+            if members.len() == 1 {
+                components.push((s * w[i].abs(), model.inputs[i].dof));
+                continue;
+            }
+            let mut q = 0.0;
+            for &a in &members {
+                for &b in &members {
+                    q += w[a] * w[b] * model.correlation(a, b);
+                }
+            }
+            let dof = members
+                .iter()
+                .filter_map(|&j| model.inputs[j].dof)
+                .fold(None, |acc: Option<f64>, d| {
+                    Some(acc.map_or(d, |a| a.min(d)))
+                });
+            if dof.is_some() {
+                grouped_note = true;
+            }
+            components.push((s * q.max(0.0).sqrt(), dof));
+        }
+        let nu_eff = welch_satterthwaite(uc, &components);
+        let nu_used = dof_used(nu_eff, model.dof_rounding);
+        if nu_eff.is_some_and(|v| v < 1.0) {
+            notes.push(format!(
+                "`{}`: the effective degrees of freedom ({:.3}) are below 1; 1 is used for the coverage factor",
+                m.name,
+                nu_eff.expect("checked")
+            ));
+        }
+        let k = coverage_factor(p, nu_used);
+
+        // Second-order terms (JCGM 100:2008, 5.1.2 note, eq. 10 extended).
+        let second = if opts.second_order {
+            Some(second_order(
+                model,
+                m.name.as_str(),
+                f,
+                &used,
+                &u,
+                uc,
+                &input_env,
+            )?)
+        } else {
+            None
+        };
+        if opts.second_order
+            && used.iter().any(|&i| {
+                !matches!(
+                    model.inputs[i].distribution,
+                    Distribution::Normal | Distribution::StudentT | Distribution::Exact
+                )
+            })
+        {
+            notes.push(format!(
+                "`{}`: the higher-order terms of JCGM 100:2008, 5.1.2 assume normal inputs; some inputs \
+                 here are not normal, so propagation of distributions is the better check",
+                m.name
+            ));
+        }
+        let u_for_expanded = second.unwrap_or(uc);
+
+        let budget = used
+            .iter()
+            .map(|&i| {
+                let inp = &model.inputs[i];
+                let (evaluation, observations) = label(model, i);
+                BudgetLine {
+                    input: inp.name.clone(),
+                    value: x[i],
+                    standard_uncertainty: u[i],
+                    dof: inp.dof,
+                    distribution: inp.distribution.name().to_string(),
+                    evaluation,
+                    observations,
+                    unit: inp.unit.clone(),
+                    description: inp.description.clone(),
+                    sensitivity: c[i],
+                    sensitivity_formula: formulas[i].clone(),
+                    contribution: (c[i] * u[i]).abs(),
+                    share: share(w[i] * w[i]),
+                }
+            })
+            .collect();
+        let correlation_budget: Vec<CorrelationLine> = corr_lines
+            .iter()
+            .map(|(cor, t)| CorrelationLine {
+                inputs: [
+                    model.inputs[cor.a].name.clone(),
+                    model.inputs[cor.b].name.clone(),
+                ],
+                coefficient: cor.coefficient,
+                term: t * s * s,
+                share: share(*t),
+                from_observations: cor.from_observations,
+            })
+            .collect();
+        results.push(MeasurandResult {
+            name: m.name.clone(),
+            unit: m.unit.clone(),
+            description: m.description.clone(),
+            formula: m.formula_text.clone(),
+            value: y,
+            standard_uncertainty: uc,
+            relative_standard_uncertainty: (y != 0.0).then(|| uc / y.abs()),
+            effective_dof: nu_eff,
+            effective_dof_used: nu_used,
+            coverage_probability: p,
+            coverage_factor: k,
+            expanded_uncertainty: k * u_for_expanded,
+            second_order_standard_uncertainty: second,
+            budget,
+            correlation_terms: corr_sum_scaled * s * s,
+            correlation_budget,
+            monte_carlo: None,
+        });
+        sens_rows.push(c);
+    }
+    if grouped_note {
+        notes.push(
+            "correlated inputs with finite degrees of freedom were grouped for the Welch-Satterthwaite \
+             formula: each group's joint contribution counts once, with the smallest dof in the group \
+             (JCGM 100:2008, G.4.1 assumes independent components)"
+                .to_string(),
+        );
+    }
+
+    // Covariance of the measurands: C V Cᵀ (JCGM 102:2011, 6.2.1.3).
+    let v = model.covariance();
+    let m = results.len();
+    let mut cov = vec![vec![0.0; m]; m];
+    for a in 0..m {
+        for b in 0..=a {
+            let q = crate::matrix::quad(&sens_rows[a], &v, &sens_rows[b]);
+            cov[a][b] = q;
+            cov[b][a] = q;
+        }
+    }
+    // The diagonal from the scaled computation above, for consistency.
+    for (a, r) in results.iter().enumerate() {
+        cov[a][a] = r.standard_uncertainty * r.standard_uncertainty;
+    }
+    let mut corr = vec![vec![0.0; m]; m];
+    for a in 0..m {
+        for b in 0..m {
+            let (ua, ub) = (
+                results[a].standard_uncertainty,
+                results[b].standard_uncertainty,
+            );
+            corr[a][b] = if a == b {
+                1.0
+            } else if ua > 0.0 && ub > 0.0 {
+                (cov[a][b] / ua / ub).clamp(-1.0, 1.0)
+            } else {
+                0.0
+            };
+        }
+    }
+    let names: Vec<String> = results.iter().map(|r| r.name.clone()).collect();
+    Ok(Report {
+        title: model.title.clone(),
+        results,
+        correlation_matrix: NamedMatrix {
+            names: names.clone(),
+            matrix: corr,
+        },
+        covariance_matrix: NamedMatrix { names, matrix: cov },
+        notes,
+        effective_dof_rounding: match model.dof_rounding {
+            crate::model::DofRounding::Truncate => "truncate".into(),
+            crate::model::DofRounding::Exact => "exact".into(),
+        },
+    })
+}
+
+/// u_c with the higher-order terms of JCGM 100:2008, 5.1.2 (note):
+/// u² = Σ c_i² u_i² + Σ_i Σ_j [½ (∂²f/∂x_i∂x_j)² + ∂f/∂x_i · ∂³f/∂x_i∂x_j²] u_i² u_j²,
+/// valid for independent, normally distributed inputs; refused when the
+/// inputs of the measurand are correlated.
+fn second_order(
+    model: &Model,
+    name: &str,
+    f: &Expr,
+    used: &[usize],
+    u: &[f64],
+    uc: f64,
+    env: &[(&str, f64)],
+) -> Result<f64, PropagationError> {
+    if let Some(c) = model
+        .correlations
+        .iter()
+        .find(|c| c.coefficient != 0.0 && used.contains(&c.a) && used.contains(&c.b))
+    {
+        return Err(perr(
+            format!(
+                "`{name}`: the higher-order terms of JCGM 100:2008, 5.1.2 hold for independent inputs \
+                 only, and `{}` and `{}` are correlated; use propagation of distributions instead",
+                model.inputs[c.a].name, model.inputs[c.b].name
+            ),
+            None,
+        ));
+    }
+    let f = simplify(f);
+    let names: Vec<&str> = used
+        .iter()
+        .map(|&i| model.inputs[i].name.as_str())
+        .collect();
+    let eval = |e: &Expr, what: &str| -> Result<f64, PropagationError> {
+        e.eval(env).map_err(|err| {
+            perr(
+                format!(
+                    "`{name}`: the {what} is not defined at the input estimates: {}",
+                    err.message
+                ),
+                Some(print(e)),
+            )
+        })
+    };
+    let firsts: Vec<Expr> = names.iter().map(|w| derivative(&f, w)).collect();
+    if uc == 0.0 {
+        return Ok(0.0);
+    }
+    // Each term divided by u_c², so that nothing under- or overflows.
+    let mut extra_rel = 0.0;
+    for (a, &i) in used.iter().enumerate() {
+        if u[i] == 0.0 {
+            continue;
+        }
+        let fi = eval(&firsts[a], "first derivative")?;
+        for (b, &j) in used.iter().enumerate() {
+            if u[j] == 0.0 {
+                continue;
+            }
+            let fij_e = derivative(&firsts[a], names[b]);
+            let fij = eval(&fij_e, "second derivative")?;
+            let fijj = eval(&derivative(&fij_e, names[b]), "third derivative")?;
+            let r1 = fi * u[i] / uc;
+            let r2 = fij * u[i] * u[j] / uc;
+            let r3 = fijj * u[i] * u[j] * u[j] / uc;
+            extra_rel += 0.5 * r2 * r2 + r1 * r3;
+        }
+    }
+    let total = 1.0 + extra_rel;
+    if total < 0.0 {
+        return Err(perr(
+            format!("`{name}`: the higher-order terms make the variance negative; the model is too far from linear for this approximation"),
+            None,
+        ));
+    }
+    Ok(uc * total.sqrt())
+}
