@@ -1,5 +1,6 @@
 //! incertus: evaluation of measurement uncertainty.
 //!
 //! This facade re-exports the crates of the workspace under short names:
-//! [`expr`] (the formula language).
+//! [`expr`] (the formula language), [`gum`] (the law of propagation).
 pub use incertus_expr as expr;
+pub use incertus_gum as gum;
