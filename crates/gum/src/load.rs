@@ -94,7 +94,13 @@ pub fn load_str(text: &str, file: &str) -> Result<Model, ModelError> {
     let doc = Doc { src: text, file };
     let root = DeTable::parse(text).map_err(|e| {
         let span = e.span().unwrap_or(0..0);
-        doc.error(span, "", format!("not valid TOML: {}", e.message().trim()))
+        let mut err = doc.error(
+            span.clone(),
+            "",
+            format!("not valid TOML: {}", e.message().trim()),
+        );
+        err.detail = Some(doc.line_with_caret(span));
+        err
     })?;
     let root_span = root.span();
     let mut top = Reader::new(&doc, "", root.get_ref(), root_span);
@@ -113,6 +119,18 @@ impl Doc<'_> {
         let line = before.matches('\n').count() + 1;
         let col = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
         (line, col)
+    }
+
+    /// The line of the file holding `span`, with carets under the span.
+    fn line_with_caret(&self, span: Range<usize>) -> String {
+        let start = span.start.min(self.src.len());
+        let line_start = self.src[..start].rfind('\n').map_or(0, |i| i + 1);
+        let line_end = self.src[start..]
+            .find('\n')
+            .map_or(self.src.len(), |i| start + i);
+        let end = span.end.clamp(start, line_end);
+        let local = incertus_expr::Span::new(start - line_start, end - line_start);
+        incertus_expr::caret(&self.src[line_start..line_end], local)
     }
 
     fn line(&self, span: &Range<usize>) -> usize {
@@ -204,6 +222,13 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
             self.used.push(key.to_string());
         }
         found
+    }
+
+    fn value_span_of(&self, key: &str) -> Range<usize> {
+        self.table
+            .iter()
+            .find(|(k, _)| k.get_ref().as_ref() == key)
+            .map_or(self.span.clone(), |(_, v)| v.span())
     }
 
     fn span_of(&self, key: &str) -> Range<usize> {
@@ -794,7 +819,16 @@ impl Loader<'_> {
         text: &str,
         e: &FormulaError,
     ) -> ModelError {
-        let mut err = r.err(span, key, e.message.clone());
+        // Point into the string when the file holds it verbatim ("..." or '...').
+        let raw =
+            &self.doc.src[span.start.min(self.doc.src.len())..span.end.min(self.doc.src.len())];
+        let inner = raw.get(1..raw.len().saturating_sub(1));
+        let at = if inner == Some(text) {
+            span.start + 1 + e.span.start
+        } else {
+            span.start
+        };
+        let mut err = r.err(at..at, key, e.message.clone());
         err.detail = Some(incertus_expr::caret(text, e.span));
         err
     }
@@ -833,7 +867,7 @@ impl Loader<'_> {
                 return Err(self.formula_error(
                     &r,
                     "formula",
-                    r.span_of("formula"),
+                    r.value_span_of("formula"),
                     &meas.formula_text,
                     &e,
                 ));

@@ -230,7 +230,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                     "the formula of `{}` cannot be evaluated at the input estimates: {}",
                     m.name, e.message
                 ),
-                Some(e.render(&m.formula_text)),
+                Some(incertus_expr::caret(&m.formula_text, e.span)),
             )
         })?;
         env.push((m.name.as_str(), v));
