@@ -1,0 +1,62 @@
+//! Criterion benchmark of the law of propagation (issue: GUM).
+//!
+//! `model_to_json/50_inputs`: read a 50-input model file, load it, propagate
+//! (50 symbolic sensitivity coefficients, budget, ν_eff, k) and write the
+//! JSON report. Target: under 5 ms.
+//!
+//! Run: `cargo bench --bench gum`.
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use incertus::gum::{load_file, propagate, Options};
+
+/// A model of 50 inputs of every kind and one long measurand.
+fn model_text() -> String {
+    let mut t = String::from("title = \"50 inputs\"\n");
+    for i in 0..50 {
+        t.push_str(&format!("[inputs.x{i}]\n"));
+        match i % 5 {
+            0 => t.push_str(&format!(
+                "observations = [{}, {}, {}, {}, {}]\n",
+                1.0 + i as f64 * 0.01,
+                1.02 + i as f64 * 0.01,
+                0.99 + i as f64 * 0.01,
+                1.01 + i as f64 * 0.01,
+                1.0 + i as f64 * 0.01
+            )),
+            1 => t.push_str("value = 2.0\ndistribution = \"rectangular\"\nhalf_width = 0.05\n"),
+            2 => t.push_str("value = 0.5\nexpanded_uncertainty = 0.01\ncoverage_factor = 2\n"),
+            3 => t.push_str("value = 1.5\nstandard_uncertainty = 0.02\ndof = 8\n"),
+            _ => t.push_str("value = 3.0\ndistribution = \"triangular\"\nhalf_width = 0.1\n"),
+        }
+    }
+    let terms: Vec<String> = (0..50)
+        .map(|i| match i % 3 {
+            0 => format!("x{i}*x{}/(1 + x{}^2)", (i + 1) % 50, (i + 2) % 50),
+            1 => format!("sqrt(x{i})*exp(-x{}/10)", (i + 3) % 50),
+            _ => format!("ln(1 + x{i}^2)"),
+        })
+        .collect();
+    t.push_str(&format!(
+        "[[measurands]]\nname = \"y\"\nformula = \"{}\"\n",
+        terms.join(" + ")
+    ));
+    t
+}
+
+fn bench(c: &mut Criterion) {
+    let dir = std::env::temp_dir().join(format!("incertus-bench-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join("fifty.toml");
+    std::fs::write(&path, model_text()).unwrap();
+    c.bench_function("model_to_json/50_inputs", |b| {
+        b.iter(|| {
+            let model = load_file(&path).unwrap();
+            let report = propagate(&model, &Options::default()).unwrap();
+            incertus_cli::report::json(&report)
+        })
+    });
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);
