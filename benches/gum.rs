@@ -52,7 +52,7 @@ fn bench(c: &mut Criterion) {
         b.iter(|| {
             let model = load_file(&path).unwrap();
             let report = propagate(&model, &Options::default()).unwrap();
-            incertus_cli::report::json(&report)
+            incertus_cli::report::json(&report, None)
         })
     });
     let _ = std::fs::remove_dir_all(&dir);

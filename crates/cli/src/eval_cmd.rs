@@ -34,6 +34,54 @@ pub struct EvalArgs {
     /// Significant digits of reported uncertainties (1 to 3)
     #[arg(long, default_value_t = 2, value_parser = clap::value_parser!(u32).range(1..=3))]
     digits: u32,
+    /// Also propagate distributions (JCGM 101:2008): a number of Monte Carlo
+    /// trials, or "auto" for the adaptive procedure
+    #[arg(long, value_name = "TRIALS|auto")]
+    mc: Option<String>,
+    /// Seed of the Monte Carlo trials (the same seed gives the same results on any number of threads)
+    #[arg(long, value_name = "N", default_value_t = incertus_mc::DEFAULT_SEED)]
+    seed: u64,
+    /// Threads for the Monte Carlo trials (default: all cores)
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1024))]
+    threads: Option<u32>,
+    /// Significant digits of the numerical tolerance for the adaptive procedure and the validation
+    #[arg(long, value_name = "N", default_value_t = 2, value_parser = clap::value_parser!(u32).range(1..=6))]
+    ndig: u32,
+    /// Discard Monte Carlo trials whose result is not a finite number (the report states how many)
+    #[arg(long)]
+    mc_drop_nonfinite: bool,
+    /// Most trials the adaptive procedure may use
+    #[arg(long, value_name = "N", default_value_t = 100_000_000)]
+    mc_max_trials: usize,
+}
+
+fn mc_settings(a: &EvalArgs) -> Result<Option<incertus_mc::Settings>, Failure> {
+    let Some(spec) = &a.mc else { return Ok(None) };
+    let trials = if spec == "auto" {
+        incertus_mc::Trials::Adaptive {
+            max: a.mc_max_trials,
+        }
+    } else {
+        let clean = spec.replace('_', "");
+        let n = clean
+            .parse::<u64>()
+            .ok()
+            .or_else(|| clean.parse::<f64>().ok().filter(|v| v.fract() == 0.0 && *v >= 0.0 && *v < 1e15).map(|v| v as u64))
+            .ok_or_else(|| {
+                Failure::input(format!(
+                    "--mc expects a number of trials (such as 1000000 or 1e6) or \"auto\", found `{spec}`"
+                ))
+            })?;
+        incertus_mc::Trials::Fixed(n as usize)
+    };
+    Ok(Some(incertus_mc::Settings {
+        trials,
+        seed: a.seed,
+        threads: a.threads.map(|t| t as usize),
+        drop_non_finite: a.mc_drop_nonfinite,
+        ndig: a.ndig,
+        memory_limit: None,
+    }))
 }
 
 #[derive(Args, Debug)]
@@ -73,12 +121,24 @@ pub(crate) fn evaluate(
 
 pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
-    let report = evaluate(&model, a.coverage, a.second_order)?;
+    let settings = mc_settings(a)?;
+    let mut report = evaluate(&model, a.coverage, a.second_order)?;
+    let mc = match settings {
+        Some(s) => {
+            let mc =
+                incertus_mc::run(&model, &report, &s).map_err(|e| Failure::input(e.to_string()))?;
+            for (r, m) in report.results.iter_mut().zip(&mc.results) {
+                r.monte_carlo = Some(serde_json::to_value(m).expect("plain data"));
+            }
+            Some(mc)
+        }
+        None => None,
+    };
     let style = Style { digits: a.digits };
     let text = match a.format {
-        Format::Text => report::text(&report, style),
-        Format::Markdown => report::markdown(&report, style),
-        Format::Json => report::json(&report),
+        Format::Text => report::text(&report, style, mc.as_ref()),
+        Format::Markdown => report::markdown(&report, style, mc.as_ref()),
+        Format::Json => report::json(&report, mc.as_ref()),
         Format::Csv => report::csv(&report),
     };
     let _ = out.write_all(text.as_bytes());

@@ -60,9 +60,13 @@ impl Failure {
 
 /// Run the program with the process's arguments.
 pub fn run() -> ExitCode {
-    let stdout = std::io::stdout();
-    let stderr = std::io::stderr();
-    let code = run_with(std::env::args_os(), &mut stdout.lock(), &mut stderr.lock());
+    // Unlocked handles: a lock held for the whole run would deadlock any
+    // worker thread that writes to the same stream.
+    let code = run_with(
+        std::env::args_os(),
+        &mut std::io::stdout(),
+        &mut std::io::stderr(),
+    );
     ExitCode::from(code)
 }
 

@@ -8,6 +8,7 @@
 
 use incertus_gum::rounding::{significant, write};
 use incertus_gum::{MeasurandResult, Report};
+use incertus_mc::{McMeasurand, McReport};
 
 /// How a result is written.
 #[derive(Clone, Copy, Debug)]
@@ -217,8 +218,114 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
     lines
 }
 
+/// Lines stating a Monte Carlo result next to the first-order one.
+fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -> Vec<String> {
+    let unit = unit_suffix(r);
+    let name = &r.name;
+    let p = percent(m.coverage_probability);
+    // Interval ends to one digit more than the standard uncertainty shows.
+    let end = |v: f64| {
+        let w = write(v, m.standard_uncertainty, style.digits + 1);
+        match w.exponent {
+            Some(x) => format!("{}e{x}", w.value),
+            None => w.value,
+        }
+    };
+    let w = write(m.value, m.standard_uncertainty, style.digits);
+    let mut lines = vec![
+        format!(
+            "propagation of distributions (JCGM 101:2008): {} trials, seed {}{}",
+            m.trials,
+            m.seed,
+            match &mc.adaptive {
+                Some(a) => format!(
+                    ", adaptive procedure with ndig = {}: {} sequences of {} trials{}",
+                    a.ndig,
+                    a.sequences,
+                    a.trials_per_sequence,
+                    if a.converged {
+                        ""
+                    } else {
+                        " (did not reach the tolerance within the trial limit)"
+                    }
+                ),
+                None => String::new(),
+            }
+        ),
+        format!(
+            "  estimate (mean of the trials)       {name} = {}{unit}",
+            significant(m.value, 10)
+        ),
+        format!(
+            "  standard uncertainty                u({name}) = {}{unit}",
+            significant(m.standard_uncertainty, 5)
+        ),
+        format!(
+            "  result                              {name} = {}{unit}",
+            w.concise
+        ),
+        format!(
+            "  probabilistically symmetric {p} coverage interval  [{}, {}]{unit}",
+            end(m.symmetric_interval[0]),
+            end(m.symmetric_interval[1])
+        ),
+        format!(
+            "  shortest {p} coverage interval                     [{}, {}]{unit}",
+            end(m.shortest_interval[0]),
+            end(m.shortest_interval[1])
+        ),
+        format!(
+            "  first-order interval y ± U                          [{}, {}]{unit}",
+            end(r.value - r.expanded_uncertainty),
+            end(r.value + r.expanded_uncertainty)
+        ),
+    ];
+    if m.non_finite_dropped > 0 {
+        lines.push(format!(
+            "  {} trials gave a non-finite value and were dropped (--mc-drop-nonfinite)",
+            m.non_finite_dropped
+        ));
+    }
+    let v = &m.validation;
+    lines.push(format!(
+        "validation of the first-order result (JCGM 101:2008, 8): numerical tolerance δ = {} (ndig = {}),",
+        significant(v.numerical_tolerance, 2),
+        v.ndig
+    ));
+    lines.push(format!(
+        "  d_low = {}, d_high = {}: {}",
+        significant(v.d_low, 3),
+        significant(v.d_high, 3),
+        if v.passed {
+            "PASSED, the first-order result is validated"
+        } else {
+            "NOT PASSED, the first-order result is not validated at this tolerance; report the Monte Carlo result"
+        }
+    ));
+    lines
+}
+
+fn mc_footer(mc: &McReport) -> Vec<String> {
+    let mut lines = vec![format!(
+        "Monte Carlo: {} trials in blocks of {}, seed {} ({} threads; the results do not depend on the thread count), about {} of memory",
+        mc.trials,
+        mc.block_size,
+        mc.seed,
+        mc.threads,
+        if mc.memory_bytes >= 1_000_000 {
+            format!("{:.1} MB", mc.memory_bytes as f64 / 1e6)
+        } else {
+            format!("{:.0} kB", mc.memory_bytes as f64 / 1e3)
+        }
+    )];
+    for s in &mc.correlated_sampling {
+        lines.push(format!("correlated inputs sampled jointly: {s}"));
+    }
+    lines
+}
+
 /// The aligned text report.
-pub fn text(report: &Report, style: Style) -> String {
+pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
     let mut out = String::new();
     if let Some(t) = &report.title {
         out.push_str(t);
@@ -246,6 +353,15 @@ pub fn text(report: &Report, style: Style) -> String {
             out.push('\n');
         }
         out.push('\n');
+        if let Some(mc) = mc {
+            if let Some(m) = mc.results.iter().find(|m| m.name == r.name) {
+                for l in mc_lines(r, m, mc, style) {
+                    out.push_str(l.trim_end());
+                    out.push('\n');
+                }
+                out.push('\n');
+            }
+        }
     }
     if report.results.len() > 1 {
         out.push_str("correlation matrix of the measurands (JCGM 102:2011, first order)\n");
@@ -263,6 +379,12 @@ pub fn text(report: &Report, style: Style) -> String {
         out.push_str(&aligned(&rows));
         out.push('\n');
     }
+    if let Some(mc) = mc {
+        for l in mc_footer(mc) {
+            out.push_str(&l);
+            out.push('\n');
+        }
+    }
     for n in &report.notes {
         out.push_str(&format!("note: {n}\n"));
     }
@@ -276,7 +398,7 @@ fn md_escape(s: &str) -> String {
 }
 
 /// The same content as Markdown.
-pub fn markdown(report: &Report, style: Style) -> String {
+pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String {
     let mut out = String::new();
     out.push_str(&format!(
         "# {}\n\n",
@@ -317,6 +439,15 @@ pub fn markdown(report: &Report, style: Style) -> String {
             out.push_str(l.trim_end());
             out.push('\n');
         }
+        if let Some(mc) = mc {
+            if let Some(m) = mc.results.iter().find(|m| m.name == r.name) {
+                out.push('\n');
+                for l in mc_lines(r, m, mc, style) {
+                    out.push_str(l.trim_end());
+                    out.push('\n');
+                }
+            }
+        }
         out.push_str("```\n\n");
     }
     if report.results.len() > 1 {
@@ -338,6 +469,11 @@ pub fn markdown(report: &Report, style: Style) -> String {
         }
         out.push('\n');
     }
+    if let Some(mc) = mc {
+        for l in mc_footer(mc) {
+            out.push_str(&format!("- {}\n", md_escape(&l)));
+        }
+    }
     for n in &report.notes {
         out.push_str(&format!("- Note: {}\n", md_escape(n)));
     }
@@ -345,9 +481,25 @@ pub fn markdown(report: &Report, style: Style) -> String {
 }
 
 /// The full result as JSON (full precision).
-pub fn json(report: &Report) -> String {
+pub fn json(report: &Report, mc: Option<&McReport>) -> String {
     let mut v = serde_json::to_value(report).expect("a report is plain data");
     if let Some(obj) = v.as_object_mut() {
+        if let Some(mc) = mc {
+            obj.insert(
+                "monte_carlo_run".into(),
+                serde_json::json!({
+                    "trials": mc.trials,
+                    "seed": mc.seed,
+                    "block_size": mc.block_size,
+                    "threads": mc.threads,
+                    "memory_bytes": mc.memory_bytes,
+                    "adaptive": mc.adaptive,
+                    "correlated_sampling": mc.correlated_sampling,
+                    "covariance_matrix": mc.covariance_matrix,
+                    "correlation_matrix": mc.correlation_matrix,
+                }),
+            );
+        }
         obj.insert(
             "program".into(),
             serde_json::json!({"name": "incertus", "version": env!("CARGO_PKG_VERSION")}),

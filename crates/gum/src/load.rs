@@ -427,6 +427,9 @@ const INPUT_KEYS: &[&str] = &[
     "lower",
     "upper",
     "beta",
+    "limit_half_width",
+    "shape",
+    "scale",
     "observations",
     "pooled_standard_deviation",
     "pooled_dof",
@@ -888,6 +891,9 @@ impl Loader<'_> {
         let lower = r.number("lower")?;
         let upper = r.number("upper")?;
         let beta = r.number("beta")?;
+        let limit_hw = r.number("limit_half_width")?;
+        let shape = r.number("shape")?;
+        let scale = r.number("scale")?;
         let obs = r.numbers("observations")?;
         let pooled = r.number("pooled_standard_deviation")?;
         let pooled_dof = r.number("pooled_dof")?;
@@ -1033,6 +1039,20 @@ impl Loader<'_> {
                 "beta goes with distribution = \"trapezoidal\"",
             )?;
         }
+        if dist_name != Some("curvilinear_trapezoidal") {
+            forbid(
+                &limit_hw,
+                "limit_half_width",
+                "limit_half_width goes with distribution = \"curvilinear_trapezoidal\"",
+            )?;
+        }
+        if dist_name != Some("gamma") {
+            forbid(&shape, "shape", "shape goes with distribution = \"gamma\"")?;
+            forbid(&scale, "scale", "scale goes with distribution = \"gamma\"")?;
+        }
+        positive(&limit_hw, "limit_half_width", true)?;
+        positive(&shape, "shape", false)?;
+        positive(&scale, "scale", false)?;
 
         if let Some((cname, cspan)) = constant {
             let Some(c) = constants::find(&cname) else {
@@ -1260,6 +1280,25 @@ impl Loader<'_> {
                         beta: b.value,
                     }
                 }
+                Some("curvilinear_trapezoidal") => {
+                    let Some(d) = &limit_hw else {
+                        return Err(bad_dist(
+                            "a curvilinear trapezoid needs limit_half_width, the half-width of the \
+                             interval in which each limit lies (JCGM 101:2008, 6.4.3)",
+                        ));
+                    };
+                    if d.value > half_width {
+                        return Err(r.err(
+                            d.span.clone(),
+                            "limit_half_width",
+                            "limit_half_width cannot exceed the half-width of the distribution",
+                        ));
+                    }
+                    Distribution::CurvilinearTrapezoidal {
+                        half_width,
+                        limit_half_width: d.value,
+                    }
+                }
                 None => return Err(r.err(
                     r.span.clone(),
                     "distribution",
@@ -1278,6 +1317,44 @@ impl Loader<'_> {
                 .expect("a distribution with limits");
             input.dof = stated_dof;
             input.distribution = dist;
+            return Ok(input);
+        }
+
+        if dist_name == Some("gamma") {
+            let (Some(k), Some(th)) = (&shape, &scale) else {
+                return Err(bad_dist("a gamma distribution needs shape and scale"));
+            };
+            forbid(
+                &value,
+                "value",
+                "the estimate of a gamma distribution is shape × scale",
+            )?;
+            input.estimate = k.value * th.value;
+            input.standard_uncertainty = k.value.sqrt() * th.value;
+            input.dof = stated_dof;
+            input.distribution = Distribution::Gamma {
+                shape: k.value,
+                scale: th.value,
+            };
+            return Ok(input);
+        }
+        if dist_name == Some("exponential") {
+            let Some(v) = &value else {
+                return Err(bad_dist(
+                    "an exponential distribution needs value, its mean",
+                ));
+            };
+            if v.value <= 0.0 {
+                return Err(r.err(
+                    v.span.clone(),
+                    "value",
+                    "the estimate of an exponential distribution (its mean) must be positive",
+                ));
+            }
+            input.estimate = v.value;
+            input.standard_uncertainty = v.value;
+            input.dof = stated_dof;
+            input.distribution = Distribution::Exponential;
             return Ok(input);
         }
 

@@ -48,6 +48,20 @@ pub enum Distribution {
         half_width: f64,
         beta: f64,
     },
+    /// Rectangular with inexactly prescribed limits: each limit is known
+    /// only to within ±`limit_half_width` (JCGM 101:2008, 6.4.3).
+    CurvilinearTrapezoidal {
+        half_width: f64,
+        limit_half_width: f64,
+    },
+    /// Exponential with the estimate as its mean, for a non-negative
+    /// quantity of which only the estimate is known (JCGM 101:2008, 6.4.10).
+    Exponential,
+    /// Gamma with shape and scale (JCGM 101:2008, 6.4.11).
+    Gamma {
+        shape: f64,
+        scale: f64,
+    },
     /// A fixed value.
     Exact,
 }
@@ -62,6 +76,9 @@ impl Distribution {
             Distribution::Triangular { .. } => "triangular",
             Distribution::Arcsine { .. } => "arcsine",
             Distribution::Trapezoidal { .. } => "trapezoidal",
+            Distribution::CurvilinearTrapezoidal { .. } => "curvilinear_trapezoidal",
+            Distribution::Exponential => "exponential",
+            Distribution::Gamma { .. } => "gamma",
             Distribution::Exact => "exact",
         }
     }
@@ -69,7 +86,8 @@ impl Distribution {
     /// Standard uncertainty of a distribution with limits, from its
     /// half-width a: a/√3 (rectangular, JCGM 100:2008, 4.3.7), a/√6
     /// (triangular, 4.3.9), a/√2 (arc sine, JCGM 101:2008, 6.4.6),
-    /// a·√((1 + β²)/6) (trapezoidal, JCGM 100:2008, 4.3.9).
+    /// a·√((1 + β²)/6) (trapezoidal, JCGM 100:2008, 4.3.9),
+    /// √(a²/3 + d²/9) (curvilinear trapezoid, JCGM 101:2008, 6.4.3.3).
     pub fn standard_uncertainty_from_limits(&self) -> Option<f64> {
         Some(match *self {
             Distribution::Rectangular { half_width } => half_width / 3f64.sqrt(),
@@ -78,6 +96,10 @@ impl Distribution {
             Distribution::Trapezoidal { half_width, beta } => {
                 half_width * ((1.0 + beta * beta) / 6.0).sqrt()
             }
+            Distribution::CurvilinearTrapezoidal {
+                half_width,
+                limit_half_width,
+            } => (half_width * half_width / 3.0 + limit_half_width * limit_half_width / 9.0).sqrt(),
             _ => return None,
         })
     }

@@ -1,0 +1,586 @@
+//! Propagation of distributions by the Monte Carlo method of
+//! JCGM 101:2008 (GUM Supplement 1): sampling of the input distributions
+//! (6.4), evaluation of the model on the compiled tape in batches (7.4),
+//! estimate, standard uncertainty and the probabilistically symmetric and
+//! shortest coverage intervals (7.5 to 7.7), the adaptive procedure (7.9)
+//! and the validation of the first-order (GUM) result (clause 8). Several
+//! measurands share the same trials, so their covariance comes too
+//! (JCGM 102:2011, 7.5).
+//!
+//! Reproducibility: trials are cut into blocks of [`BLOCK`] trials; block b
+//! draws from its own `Xoshiro256PlusPlus` stream seeded with
+//! SplitMix64(seed, b), and every reduction runs over fixed chunks combined
+//! in order. A seed therefore gives the same numbers, bit for bit, whatever
+//! the number of threads. The default seed is [`DEFAULT_SEED`].
+//!
+//! Left out: the adaptive procedure's optional use of the shortest interval
+//! for its stopping rule (the probabilistically symmetric one is used, as in
+//! JCGM 101:2008, 7.9.4); Monte Carlo for the higher-order terms.
+
+mod sample;
+pub mod stats;
+
+use incertus_expr::Tape;
+use incertus_gum::propagate::{expanded_formulas, NamedMatrix};
+use incertus_gum::{Model, Report};
+use rand::SeedableRng;
+use rayon::prelude::*;
+use serde::Serialize;
+
+pub use sample::{describe, groups, Group, Marginal, Stream};
+pub use stats::Histogram;
+
+/// Trials per block: the unit of reproducibility and of parallel work.
+pub const BLOCK: usize = 1 << 13;
+
+/// The seed used when none is given.
+pub const DEFAULT_SEED: u64 = 20_260_101;
+
+/// How many trials.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Trials {
+    Fixed(usize),
+    /// The adaptive procedure of JCGM 101:2008, 7.9, to `ndig` significant
+    /// digits, with at most `max` trials.
+    Adaptive {
+        max: usize,
+    },
+}
+
+/// Settings of one run.
+#[derive(Clone, Debug)]
+pub struct Settings {
+    pub trials: Trials,
+    pub seed: u64,
+    /// Worker threads (`None`: all cores).
+    pub threads: Option<usize>,
+    /// Drop trials whose result is not finite instead of refusing the run.
+    pub drop_non_finite: bool,
+    /// Significant digits of the numerical tolerance (JCGM 101:2008, 7.9.2).
+    pub ndig: u32,
+    /// Largest memory the trials may take, in bytes (`None`: 80 % of the
+    /// memory the system reports available, or 4 GiB if it cannot be read).
+    pub memory_limit: Option<u64>,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings {
+            trials: Trials::Fixed(1_000_000),
+            seed: DEFAULT_SEED,
+            threads: None,
+            drop_non_finite: false,
+            ndig: 2,
+            memory_limit: None,
+        }
+    }
+}
+
+/// Why a run could not be done.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{0}")]
+pub struct McError(pub String);
+
+/// Validation of the first-order result (JCGM 101:2008, 8.2).
+#[derive(Clone, Debug, Serialize)]
+pub struct Validation {
+    /// δ from the first-order u_c(y) and ndig (7.9.2).
+    pub numerical_tolerance: f64,
+    pub ndig: u32,
+    /// |y − U_p − y_low|.
+    pub d_low: f64,
+    /// |y + U_p − y_high|.
+    pub d_high: f64,
+    pub passed: bool,
+}
+
+/// The Monte Carlo result for one measurand (the `monte_carlo` object of
+/// the JSON report).
+#[derive(Clone, Debug, Serialize)]
+pub struct McMeasurand {
+    pub name: String,
+    /// Trials used (after dropping non-finite ones, if that was asked).
+    pub trials: usize,
+    pub seed: u64,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub coverage_probability: f64,
+    pub symmetric_interval: [f64; 2],
+    pub shortest_interval: [f64; 2],
+    pub validation: Validation,
+    pub non_finite_dropped: usize,
+    pub histogram: Histogram,
+}
+
+/// Adaptive-procedure bookkeeping (JCGM 101:2008, 7.9).
+#[derive(Clone, Debug, Serialize)]
+pub struct Adaptive {
+    pub ndig: u32,
+    pub trials_per_sequence: usize,
+    pub sequences: usize,
+    pub converged: bool,
+}
+
+/// Everything a run produced.
+#[derive(Clone, Debug, Serialize)]
+pub struct McReport {
+    pub trials: usize,
+    pub seed: u64,
+    pub block_size: usize,
+    pub threads: usize,
+    /// Bytes held for the trials (outputs and the sort buffers).
+    pub memory_bytes: u64,
+    pub adaptive: Option<Adaptive>,
+    /// How correlated inputs were sampled, in words.
+    pub correlated_sampling: Vec<String>,
+    pub results: Vec<McMeasurand>,
+    pub covariance_matrix: NamedMatrix,
+    pub correlation_matrix: NamedMatrix,
+}
+
+/// SplitMix64: the seed of block `b`.
+fn block_seed(seed: u64, b: u64) -> u64 {
+    let mut z = seed ^ b.wrapping_mul(0x9E37_79B9_7F4A_7C15);
+    z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
+fn available_memory() -> Option<u64> {
+    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
+    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb * 1024)
+}
+
+/// Bytes a run of `trials` trials holds: every measurand's values plus two
+/// `u64` buffers for the sort, plus the per-thread block buffers.
+pub fn memory_needed(model: &Model, trials: usize, threads: usize) -> u64 {
+    let m = model.measurands.len() as u64;
+    let n = trials as u64;
+    let per_thread = (BLOCK * (2 * model.inputs.len() + m as usize + 2) * 8) as u64;
+    n * 8 * (m + 2) + threads as u64 * per_thread
+}
+
+fn limit(settings: &Settings) -> u64 {
+    settings
+        .memory_limit
+        .unwrap_or_else(|| available_memory().map_or(4 << 30, |a| a / 10 * 8))
+}
+
+fn human(bytes: u64) -> String {
+    let b = bytes as f64;
+    if b >= 1e9 {
+        format!("{:.1} GB", b / 1e9)
+    } else if b >= 1e6 {
+        format!("{:.1} MB", b / 1e6)
+    } else {
+        format!("{:.0} kB", b / 1e3)
+    }
+}
+
+/// Everything needed to draw and evaluate trials.
+struct Engine<'a> {
+    model: &'a Model,
+    tape: Tape,
+    groups: Vec<Group>,
+    seed: u64,
+}
+
+/// A non-finite result met in a block.
+#[derive(Clone, Debug)]
+struct Bad {
+    trial: usize,
+    measurand: usize,
+    inputs: Vec<f64>,
+}
+
+impl Engine<'_> {
+    /// Draw and evaluate trials `[start, start + out[0].len())`; `start` is a
+    /// multiple of BLOCK. Returns the non-finite count per measurand and the
+    /// first bad trial.
+    fn run(
+        &self,
+        start: usize,
+        outs: &mut [Vec<f64>],
+        range: std::ops::Range<usize>,
+    ) -> (Vec<usize>, Option<Bad>) {
+        let m = outs.len();
+        let n_in = self.model.inputs.len();
+        let len = range.len();
+        let n_blocks = len.div_ceil(BLOCK);
+        // Split every output into per-block slices.
+        let mut per_block: Vec<Vec<&mut [f64]>> =
+            (0..n_blocks).map(|_| Vec::with_capacity(m)).collect();
+        for o in outs.iter_mut() {
+            for (b, chunk) in o[range.clone()].chunks_mut(BLOCK).enumerate() {
+                per_block[b].push(chunk);
+            }
+        }
+        let results: Vec<(Vec<usize>, Option<Bad>)> = per_block
+            .into_par_iter()
+            .enumerate()
+            .map_init(
+                || (vec![vec![0.0; BLOCK]; n_in], Vec::<f64>::new()),
+                |(cols, scratch), (b, mut slices)| {
+                    let block_index = (start / BLOCK + b) as u64;
+                    let mut rng = sample::Stream::seed_from_u64(block_seed(self.seed, block_index));
+                    let blen = slices[0].len();
+                    for g in &self.groups {
+                        g.fill(&mut rng, cols, blen, scratch);
+                    }
+                    let col_refs: Vec<&[f64]> = cols.iter().map(|c| &c[..blen]).collect();
+                    let report = self
+                        .tape
+                        .eval_batch(&col_refs, &mut slices)
+                        .expect("columns and outputs have the tape's shape");
+                    let bad = report
+                        .first_non_finite
+                        .iter()
+                        .enumerate()
+                        .filter_map(|(j, f)| f.map(|i| (i, j)))
+                        .min()
+                        .map(|(i, j)| Bad {
+                            trial: start + b * BLOCK + i,
+                            measurand: j,
+                            inputs: cols.iter().map(|c| c[i]).collect(),
+                        });
+                    (report.non_finite, bad)
+                },
+            )
+            .collect();
+        let mut counts = vec![0usize; m];
+        let mut first: Option<Bad> = None;
+        for (c, bad) in results {
+            for (t, x) in counts.iter_mut().zip(c) {
+                *t += x;
+            }
+            if let Some(bad) = bad {
+                if first.as_ref().is_none_or(|f| bad.trial < f.trial) {
+                    first = Some(bad);
+                }
+            }
+        }
+        (counts, first)
+    }
+}
+
+/// Numerical tolerance δ of a standard uncertainty to `ndig` significant
+/// digits: u = c × 10^l with c an ndig-digit integer, δ = ½ × 10^l
+/// (JCGM 101:2008, 7.9.2).
+pub fn numerical_tolerance(u: f64, ndig: u32) -> f64 {
+    if u <= 0.0 || !u.is_finite() {
+        return 0.0;
+    }
+    let l = u.log10().floor() as i32 - (ndig as i32 - 1);
+    0.5 * 10f64.powi(l)
+}
+
+/// Run the Monte Carlo method on a model whose first-order report is `gum`.
+pub fn run(model: &Model, gum: &Report, settings: &Settings) -> Result<McReport, McError> {
+    let threads = settings
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        .max(1);
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| McError(format!("cannot start {threads} threads: {e}")))?;
+    pool.install(|| run_in_pool(model, gum, settings, threads))
+}
+
+fn run_in_pool(
+    model: &Model,
+    gum: &Report,
+    settings: &Settings,
+    threads: usize,
+) -> Result<McReport, McError> {
+    if settings.ndig == 0 || settings.ndig > 6 {
+        return Err(McError("ndig must be between 1 and 6".into()));
+    }
+    let p = gum.results.first().map_or(0.95, |r| r.coverage_probability);
+    let names: Vec<&str> = model.inputs.iter().map(|i| i.name.as_str()).collect();
+    let formulas: Vec<_> = expanded_formulas(model)
+        .into_iter()
+        .map(|(_, e)| e)
+        .collect();
+    let tape = Tape::compile(&formulas, &names).map_err(|e| McError(e.message))?;
+    let groups = groups(model).map_err(McError)?;
+    let engine = Engine {
+        model,
+        tape,
+        groups,
+        seed: settings.seed,
+    };
+    let m = model.measurands.len();
+    let cap = limit(settings);
+    let check_memory = |n: usize| -> Result<u64, McError> {
+        let need = memory_needed(model, n, threads);
+        if need > cap {
+            return Err(McError(format!(
+                "{n} trials would need about {} of memory, more than the {} allowed; ask for fewer \
+                 trials (memory grows by {} bytes per trial for this model)",
+                human(need),
+                human(cap),
+                8 * (m + 2)
+            )));
+        }
+        Ok(need)
+    };
+
+    let mut outs: Vec<Vec<f64>> = Vec::new();
+    let mut adaptive = None;
+    let total = match settings.trials {
+        Trials::Fixed(n) => {
+            if n < 2 {
+                return Err(McError("at least 2 trials are needed".into()));
+            }
+            let min = (100.0 / (1.0 - p)).ceil() as usize;
+            if n < min {
+                return Err(McError(format!(
+                    "{n} trials are too few for a {} % coverage interval; JCGM 101:2008, 7.2.2 asks \
+                     for at least 100/(1 − p) = {min}",
+                    100.0 * p
+                )));
+            }
+            check_memory(n)?;
+            outs = vec![vec![0.0; n]; m];
+            let (counts, bad) = engine.run(0, &mut outs, 0..n);
+            handle_non_finite(model, &engine, &counts, bad, n, settings)?;
+            n
+        }
+        Trials::Adaptive { max } => {
+            // JCGM 101:2008, 7.9.4: sequences of M = max(⌈100/(1 − p)⌉, 10⁴)
+            // trials, here rounded up to whole blocks.
+            let per = ((100.0 / (1.0 - p)).ceil() as usize)
+                .max(10_000)
+                .div_ceil(BLOCK)
+                * BLOCK;
+            let max_seq = (max / per).max(2);
+            check_memory(per * max_seq.min(2))?;
+            let mut seq_stats: Vec<Vec<[f64; 4]>> = vec![Vec::new(); m];
+            let mut h = 0;
+            let mut converged = false;
+            let batch = threads.max(2);
+            while h < max_seq && !converged {
+                let k = batch.min(max_seq - h);
+                let start = h * per;
+                let end = start + k * per;
+                check_memory(end)?;
+                for o in outs.iter_mut() {
+                    o.resize(end, 0.0);
+                }
+                if outs.is_empty() {
+                    outs = vec![vec![0.0; end]; m];
+                }
+                let (counts, bad) = engine.run(start, &mut outs, start..end);
+                if !settings.drop_non_finite {
+                    handle_non_finite(model, &engine, &counts, bad, end - start, settings)?;
+                }
+                // Statistics of each new sequence, then the stopping rule
+                // after each one in order, as if they had been run one by one.
+                for s in 0..k {
+                    let lo = start + s * per;
+                    for (j, o) in outs.iter().enumerate() {
+                        let mut v: Vec<f64> = o[lo..lo + per]
+                            .iter()
+                            .copied()
+                            .filter(|x| x.is_finite())
+                            .collect();
+                        if v.len() < 2 {
+                            return Err(McError(format!(
+                                "a sequence of {per} trials gave fewer than two finite values of `{}`",
+                                model.measurands[j].name
+                            )));
+                        }
+                        let mean = stats::mean(&v);
+                        let sd = stats::std_dev(&v, mean);
+                        let mut scratch = Vec::new();
+                        stats::radix_sort(&mut v, &mut scratch);
+                        let iv = stats::symmetric_interval(&v, p);
+                        seq_stats[j].push([mean, sd, iv[0], iv[1]]);
+                    }
+                    h += 1;
+                    if h >= 2 && stable(&outs, &seq_stats, h * per, settings.ndig) {
+                        converged = true;
+                        break;
+                    }
+                }
+            }
+            let n = h * per;
+            for o in outs.iter_mut() {
+                o.truncate(n);
+                o.shrink_to_fit();
+            }
+            adaptive = Some(Adaptive {
+                ndig: settings.ndig,
+                trials_per_sequence: per,
+                sequences: h,
+                converged,
+            });
+            n
+        }
+    };
+
+    // A trial with a non-finite value of any measurand is dropped as a
+    // whole (only when that was asked; otherwise the run stopped above), so
+    // the measurands stay paired trial by trial.
+    let n_all = outs.first().map_or(0, Vec::len);
+    let mut dropped = 0;
+    if settings.drop_non_finite && outs.iter().any(|o| o.par_iter().any(|x| !x.is_finite())) {
+        let keep: Vec<bool> = (0..n_all)
+            .map(|i| outs.iter().all(|o| o[i].is_finite()))
+            .collect();
+        dropped = keep.iter().filter(|k| !**k).count();
+        for o in outs.iter_mut() {
+            let mut it = keep.iter();
+            o.retain(|_| *it.next().expect("one flag per trial"));
+        }
+    }
+    if outs.first().map_or(0, Vec::len) < 2 {
+        return Err(McError(
+            "fewer than two trials gave finite values of every measurand".into(),
+        ));
+    }
+    // Moments and covariance on the trials in order, then the sorted values
+    // for the intervals.
+    let means: Vec<f64> = outs.iter().map(|o| stats::mean(o)).collect();
+    let sds: Vec<f64> = outs
+        .iter()
+        .zip(&means)
+        .map(|(o, &mu)| stats::std_dev(o, mu))
+        .collect();
+    let mut cov = vec![vec![0.0; m]; m];
+    let mut corr = vec![vec![0.0; m]; m];
+    for a in 0..m {
+        for b in 0..=a {
+            let c = if a == b {
+                sds[a] * sds[a]
+            } else {
+                stats::covariance(&outs[a], &outs[b], means[a], means[b])
+            };
+            cov[a][b] = c;
+            cov[b][a] = c;
+        }
+    }
+    for a in 0..m {
+        for b in 0..m {
+            corr[a][b] = if a == b {
+                1.0
+            } else if sds[a] > 0.0 && sds[b] > 0.0 {
+                (cov[a][b] / (sds[a] * sds[b])).clamp(-1.0, 1.0)
+            } else {
+                0.0
+            };
+        }
+    }
+    let mut results = Vec::with_capacity(m);
+    let mut scratch: Vec<f64> = Vec::new();
+    for (j, o) in outs.iter_mut().enumerate() {
+        stats::radix_sort(o, &mut scratch);
+        let sym = stats::symmetric_interval(o, p);
+        let short = stats::shortest_interval(o, p);
+        let g = &gum.results[j];
+        let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
+        let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
+        let d_high = (g.value + g.expanded_uncertainty - sym[1]).abs();
+        results.push(McMeasurand {
+            name: model.measurands[j].name.clone(),
+            trials: o.len(),
+            seed: settings.seed,
+            value: means[j],
+            standard_uncertainty: sds[j],
+            coverage_probability: p,
+            symmetric_interval: sym,
+            shortest_interval: short,
+            validation: Validation {
+                numerical_tolerance: delta,
+                ndig: settings.ndig,
+                d_low,
+                d_high,
+                passed: d_low <= delta && d_high <= delta,
+            },
+            non_finite_dropped: dropped,
+            histogram: stats::histogram(o, 60),
+        });
+    }
+    let mnames: Vec<String> = model.measurands.iter().map(|x| x.name.clone()).collect();
+    Ok(McReport {
+        trials: total,
+        seed: settings.seed,
+        block_size: BLOCK,
+        threads,
+        memory_bytes: memory_needed(model, total, threads),
+        adaptive,
+        correlated_sampling: describe(&engine.groups, model),
+        results,
+        covariance_matrix: NamedMatrix {
+            names: mnames.clone(),
+            matrix: cov,
+        },
+        correlation_matrix: NamedMatrix {
+            names: mnames,
+            matrix: corr,
+        },
+    })
+}
+
+/// The stopping rule of JCGM 101:2008, 7.9.4: twice the standard deviation
+/// of the sequence means of y, u(y), y_low and y_high each within the
+/// numerical tolerance of u(y) from all trials so far, for every measurand.
+fn stable(outs: &[Vec<f64>], seq: &[Vec<[f64; 4]>], n: usize, ndig: u32) -> bool {
+    for (o, s) in outs.iter().zip(seq) {
+        let all: Vec<f64> = o[..n].iter().copied().filter(|x| x.is_finite()).collect();
+        let u = stats::std_dev(&all, stats::mean(&all));
+        let delta = numerical_tolerance(u, ndig);
+        let h = s.len() as f64;
+        for k in 0..4 {
+            let vals: Vec<f64> = s.iter().map(|r| r[k]).collect();
+            let mean = vals.iter().sum::<f64>() / h;
+            let var = vals.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (h - 1.0);
+            let sd_of_mean = (var / h).sqrt();
+            if 2.0 * sd_of_mean > delta {
+                return false;
+            }
+        }
+    }
+    true
+}
+
+fn handle_non_finite(
+    model: &Model,
+    engine: &Engine,
+    counts: &[usize],
+    bad: Option<Bad>,
+    n: usize,
+    settings: &Settings,
+) -> Result<(), McError> {
+    if settings.drop_non_finite || counts.iter().all(|&c| c == 0) {
+        return Ok(());
+    }
+    let bad = bad.expect("a non-finite count has a first trial");
+    let j = bad.measurand;
+    let at: Vec<String> = model
+        .inputs
+        .iter()
+        .zip(&bad.inputs)
+        .map(|(i, v)| format!("{} = {v}", i.name))
+        .collect();
+    let why = engine
+        .tape
+        .explain_point(j, &bad.inputs)
+        .err()
+        .map(|e| format!(" ({})", e.message))
+        .unwrap_or_default();
+    Err(McError(format!(
+        "{} of {n} trials gave a value of `{}` that is not a finite number{why}; the first is trial {} \
+         at {}. The model is not defined everywhere the input distributions reach: check the model \
+         and the distributions, or rerun with --mc-drop-nonfinite to discard such trials (the report \
+         then states how many)",
+        counts[j],
+        model.measurands[j].name,
+        bad.trial,
+        at.join(", ")
+    )))
+}

@@ -1,0 +1,139 @@
+//! End-to-end tests of `incertus eval --mc` through the built binary.
+
+use std::process::Command;
+
+fn incertus(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .args(args)
+        .output()
+        .expect("the binary runs");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+const MODEL: &str = "examples/models/mc_five_inputs.toml";
+
+#[test]
+fn text_shows_both_intervals_the_seed_and_the_verdict() {
+    let (code, out, err) = incertus(&["eval", MODEL, "--mc", "1000000"]);
+    assert_eq!(code, 0, "{err}");
+    for fragment in [
+        "propagation of distributions (JCGM 101:2008): 1000000 trials, seed 20260101",
+        "probabilistically symmetric 95 % coverage interval",
+        "shortest 95 % coverage interval",
+        "validation of the first-order result (JCGM 101:2008, 8): numerical tolerance δ = ",
+        "d_low = ",
+        "the results do not depend on the thread count",
+        "of memory",
+    ] {
+        assert!(out.contains(fragment), "missing {fragment:?} in\n{out}");
+    }
+    assert!(out.contains("PASSED") || out.contains("NOT PASSED"));
+}
+
+#[test]
+fn json_fills_the_monte_carlo_object() {
+    let (code, out, err) = incertus(&[
+        "eval", MODEL, "--mc", "1e5", "--seed", "42", "--format", "json",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let mc = &v["results"][0]["monte_carlo"];
+    for key in [
+        "trials",
+        "seed",
+        "value",
+        "standard_uncertainty",
+        "symmetric_interval",
+        "shortest_interval",
+        "validation",
+    ] {
+        assert!(mc.get(key).is_some(), "monte_carlo.{key} missing");
+    }
+    for key in ["numerical_tolerance", "d_low", "d_high", "passed"] {
+        assert!(
+            mc["validation"].get(key).is_some(),
+            "validation.{key} missing"
+        );
+    }
+    assert_eq!(mc["trials"], 100_000);
+    assert_eq!(mc["seed"], 42);
+    assert_eq!(mc["symmetric_interval"].as_array().unwrap().len(), 2);
+    assert!(v["monte_carlo_run"]["memory_bytes"].as_u64().unwrap() > 0);
+}
+
+#[test]
+fn thread_count_does_not_change_the_numbers() {
+    let run = |t: &str| {
+        incertus(&[
+            "eval",
+            MODEL,
+            "--mc",
+            "300000",
+            "--threads",
+            t,
+            "--format",
+            "json",
+        ])
+        .1
+    };
+    let strip = |s: String| {
+        let mut v: serde_json::Value = serde_json::from_str(&s).unwrap();
+        v["monte_carlo_run"]["threads"] = serde_json::Value::Null;
+        v["monte_carlo_run"]["memory_bytes"] = serde_json::Value::Null; // per-thread buffers
+        v
+    };
+    assert_eq!(strip(run("1")), strip(run("2")));
+}
+
+#[test]
+fn adaptive_run_reports_its_trial_count() {
+    let (code, out, err) = incertus(&["eval", MODEL, "--mc", "auto"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("adaptive procedure with ndig = 2:"), "{out}");
+}
+
+#[test]
+fn bad_monte_carlo_requests_are_errors() {
+    for (args, fragment) in [
+        (
+            vec!["eval", MODEL, "--mc", "many"],
+            "--mc expects a number of trials",
+        ),
+        (
+            vec!["eval", MODEL, "--mc", "100"],
+            "too few for a 95 % coverage interval",
+        ),
+        (vec!["eval", MODEL, "--mc", "1e14"], "would need about"),
+    ] {
+        let (code, _, err) = incertus(&args);
+        assert_eq!(code, 1, "{args:?}: {err}");
+        assert!(err.contains(fragment), "{args:?}: {err}");
+        assert!(!err.contains("panicked"));
+    }
+    let dir = std::env::temp_dir().join(format!("incertus-cli-mc-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let p = dir.join("ln.toml");
+    std::fs::write(&p, "[inputs.x]\nvalue = 0.2\nstandard_uncertainty = 0.1\n[[measurands]]\nname = \"y\"\nformula = \"ln(x)\"\n").unwrap();
+    let (code, _, err) = incertus(&["eval", p.to_str().unwrap(), "--mc", "100000"]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("not a finite number") && err.contains("first is trial"),
+        "{err}"
+    );
+    let (code, out, _) = incertus(&[
+        "eval",
+        p.to_str().unwrap(),
+        "--mc",
+        "100000",
+        "--mc-drop-nonfinite",
+    ]);
+    assert_eq!(code, 0);
+    assert!(
+        out.contains("trials gave a non-finite value and were dropped"),
+        "{out}"
+    );
+}
