@@ -81,8 +81,12 @@ proptest! {
 
     /// Linear model, Gaussian inputs: the law of propagation is exact, so the
     /// Monte Carlo estimate, standard uncertainty and 95 % interval agree with
-    /// it within the numerical tolerance of JCGM 101:2008, 7.9.2 (ndig = 2),
-    /// and the validation passes.
+    /// it within the numerical tolerance of JCGM 101:2008, 7.9.2, and the
+    /// validation passes. With 4·10⁵ trials the Monte Carlo noise of an
+    /// interval end is about 0.4 % of u, so the check uses ndig = 1
+    /// (δ ≥ 5 % of u, over ten noise standard deviations): at ndig = 2, δ can
+    /// be 0.5 % of u and a correct run would fail by chance. The fixed
+    /// examples above check ndig = 2 with 10⁶ trials where δ allows it.
     #[test]
     fn linear_gaussian_models_agree_with_the_first_order_result(
         a in prop::collection::vec(0.2f64..3.0, 3),
@@ -98,7 +102,7 @@ proptest! {
         );
         let model = load_str(&text, "p.toml").unwrap();
         let gum = propagate(&model, &Options::default()).unwrap();
-        let out = run(&model, &gum, &Settings { trials: Trials::Fixed(400_000), seed, ..Settings::default() }).unwrap();
+        let out = run(&model, &gum, &Settings { trials: Trials::Fixed(400_000), seed, ndig: 1, ..Settings::default() }).unwrap();
         let (g, m) = (&gum.results[0], &out.results[0]);
         let delta = m.validation.numerical_tolerance;
         prop_assert!((m.value - g.value).abs() <= delta, "{} vs {}", m.value, g.value);

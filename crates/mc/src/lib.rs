@@ -188,6 +188,120 @@ struct Engine<'a> {
     seed: u64,
 }
 
+/// Counts, means and co-moments of the measurands over a set of trials
+/// (for combining blocks: Chan, Golub and LeVeque's pairwise update, 1979,
+/// from memory). Combined in block order, so the result does not depend on
+/// the thread count.
+#[derive(Clone, Debug)]
+struct Moments {
+    n: f64,
+    mean: Vec<f64>,
+    /// Σ (y_a − ȳ_a)(y_b − ȳ_b), a full m × m matrix.
+    co: Vec<Vec<f64>>,
+    min: Vec<f64>,
+    max: Vec<f64>,
+}
+
+impl Moments {
+    fn empty(m: usize) -> Moments {
+        Moments {
+            n: 0.0,
+            mean: vec![0.0; m],
+            co: vec![vec![0.0; m]; m],
+            min: vec![f64::INFINITY; m],
+            max: vec![f64::NEG_INFINITY; m],
+        }
+    }
+
+    /// Two-pass moments of one block (the values are in cache), over the
+    /// trials where every measurand is finite, and the least and greatest
+    /// value of each measurand.
+    fn of_block(outs: &[&mut [f64]], all_finite: bool) -> Moments {
+        let m = outs.len();
+        let len = outs[0].len();
+        let mut r = Moments::empty(m);
+        if all_finite {
+            r.n = len as f64;
+            for (a, o) in outs.iter().enumerate() {
+                r.mean[a] = stats::shifted_mean(o);
+                let (lo, hi) = o
+                    .iter()
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &x| {
+                        (l.min(x), h.max(x))
+                    });
+                r.min[a] = lo;
+                r.max[a] = hi;
+            }
+            for a in 0..m {
+                for b in 0..=a {
+                    let (ma, mb) = (r.mean[a], r.mean[b]);
+                    let c = stats::co_moment(outs[a], outs[b], ma, mb);
+                    r.co[a][b] = c;
+                    r.co[b][a] = c;
+                }
+            }
+            return r;
+        }
+        let ok = |i: usize| outs.iter().all(|o| o[i].is_finite());
+        let n = (0..len).filter(|&i| ok(i)).count();
+        if n == 0 {
+            return r;
+        }
+        r.n = n as f64;
+        for (a, o) in outs.iter().enumerate() {
+            r.mean[a] = stats::sum((0..len).filter(|&i| ok(i)).map(|i| o[i])) / r.n;
+            for i in (0..len).filter(|&i| ok(i)) {
+                r.min[a] = r.min[a].min(o[i]);
+                r.max[a] = r.max[a].max(o[i]);
+            }
+        }
+        for a in 0..m {
+            for b in 0..=a {
+                let (oa, ob) = (&outs[a], &outs[b]);
+                let (ma, mb) = (r.mean[a], r.mean[b]);
+                let c = stats::sum(
+                    (0..len)
+                        .filter(|&i| ok(i))
+                        .map(|i| (oa[i] - ma) * (ob[i] - mb)),
+                );
+                r.co[a][b] = c;
+                r.co[b][a] = c;
+            }
+        }
+        r
+    }
+
+    fn combine(&self, o: &Moments) -> Moments {
+        if self.n == 0.0 {
+            return o.clone();
+        }
+        if o.n == 0.0 {
+            return self.clone();
+        }
+        let n = self.n + o.n;
+        let m = self.mean.len();
+        let d: Vec<f64> = (0..m).map(|a| o.mean[a] - self.mean[a]).collect();
+        let mean = (0..m).map(|a| self.mean[a] + d[a] * o.n / n).collect();
+        let f = self.n * o.n / n;
+        let co = (0..m)
+            .map(|a| {
+                (0..m)
+                    .map(|b| self.co[a][b] + o.co[a][b] + d[a] * d[b] * f)
+                    .collect()
+            })
+            .collect();
+        let min = (0..m).map(|a| self.min[a].min(o.min[a])).collect();
+        let max = (0..m).map(|a| self.max[a].max(o.max[a])).collect();
+        Moments {
+            n,
+            mean,
+            co,
+            min,
+            max,
+        }
+    }
+}
+
 /// A non-finite result met in a block.
 #[derive(Clone, Debug)]
 struct Bad {
@@ -198,14 +312,14 @@ struct Bad {
 
 impl Engine<'_> {
     /// Draw and evaluate trials `[start, start + out[0].len())`; `start` is a
-    /// multiple of BLOCK. Returns the non-finite count per measurand and the
-    /// first bad trial.
+    /// multiple of BLOCK. Returns the non-finite count per measurand, the
+    /// first bad trial and the moments of each block.
     fn run(
         &self,
         start: usize,
         outs: &mut [Vec<f64>],
         range: std::ops::Range<usize>,
-    ) -> (Vec<usize>, Option<Bad>) {
+    ) -> (Vec<usize>, Option<Bad>, Vec<Moments>) {
         let m = outs.len();
         let n_in = self.model.inputs.len();
         let len = range.len();
@@ -218,7 +332,7 @@ impl Engine<'_> {
                 per_block[b].push(chunk);
             }
         }
-        let results: Vec<(Vec<usize>, Option<Bad>)> = per_block
+        let results: Vec<(Vec<usize>, Option<Bad>, Moments)> = per_block
             .into_par_iter()
             .enumerate()
             .map_init(
@@ -246,13 +360,16 @@ impl Engine<'_> {
                             measurand: j,
                             inputs: cols.iter().map(|c| c[i]).collect(),
                         });
-                    (report.non_finite, bad)
+                    let moments = Moments::of_block(&slices, report.all_finite());
+                    (report.non_finite, bad, moments)
                 },
             )
             .collect();
         let mut counts = vec![0usize; m];
         let mut first: Option<Bad> = None;
-        for (c, bad) in results {
+        let mut moments = Vec::with_capacity(results.len());
+        for (c, bad, mo) in results {
+            moments.push(mo);
             for (t, x) in counts.iter_mut().zip(c) {
                 *t += x;
             }
@@ -262,7 +379,7 @@ impl Engine<'_> {
                 }
             }
         }
-        (counts, first)
+        (counts, first, moments)
     }
 }
 
@@ -330,6 +447,7 @@ fn run_in_pool(
     };
 
     let mut outs: Vec<Vec<f64>> = Vec::new();
+    let mut block_moments: Vec<Moments> = Vec::new();
     let mut adaptive = None;
     let total = match settings.trials {
         Trials::Fixed(n) => {
@@ -346,8 +464,9 @@ fn run_in_pool(
             }
             check_memory(n)?;
             outs = vec![vec![0.0; n]; m];
-            let (counts, bad) = engine.run(0, &mut outs, 0..n);
+            let (counts, bad, mo) = engine.run(0, &mut outs, 0..n);
             handle_non_finite(model, &engine, &counts, bad, n, settings)?;
+            block_moments = mo;
             n
         }
         Trials::Adaptive { max } => {
@@ -374,7 +493,8 @@ fn run_in_pool(
                 if outs.is_empty() {
                     outs = vec![vec![0.0; end]; m];
                 }
-                let (counts, bad) = engine.run(start, &mut outs, start..end);
+                let (counts, bad, mo) = engine.run(start, &mut outs, start..end);
+                block_moments.extend(mo);
                 if !settings.drop_non_finite {
                     handle_non_finite(model, &engine, &counts, bad, end - start, settings)?;
                 }
@@ -396,9 +516,7 @@ fn run_in_pool(
                         }
                         let mean = stats::mean(&v);
                         let sd = stats::std_dev(&v, mean);
-                        let mut scratch = Vec::new();
-                        stats::radix_sort(&mut v, &mut scratch);
-                        let iv = stats::symmetric_interval(&v, p);
+                        let iv = stats::summarize(&mut v, p, 1, None).symmetric;
                         seq_stats[j].push([mean, sd, iv[0], iv[1]]);
                     }
                     h += 1;
@@ -413,6 +531,7 @@ fn run_in_pool(
                 o.truncate(n);
                 o.shrink_to_fit();
             }
+            block_moments.truncate(n / BLOCK);
             adaptive = Some(Adaptive {
                 ndig: settings.ndig,
                 trials_per_sequence: per,
@@ -443,29 +562,20 @@ fn run_in_pool(
             "fewer than two trials gave finite values of every measurand".into(),
         ));
     }
-    // Moments and covariance on the trials in order, then the sorted values
-    // for the intervals.
-    let means: Vec<f64> = outs.iter().map(|o| stats::mean(o)).collect();
-    let sds: Vec<f64> = outs
+    // Moments and covariance from the blocks, combined in order.
+    let total_moments = block_moments
         .iter()
-        .zip(&means)
-        .map(|(o, &mu)| stats::std_dev(o, mu))
+        .fold(Moments::empty(m), |acc, b| acc.combine(b));
+    let dof = (total_moments.n - 1.0).max(1.0);
+    let means = total_moments.mean.clone();
+    let sds: Vec<f64> = (0..m)
+        .map(|a| (total_moments.co[a][a] / dof).sqrt())
         .collect();
     let mut cov = vec![vec![0.0; m]; m];
     let mut corr = vec![vec![0.0; m]; m];
     for a in 0..m {
-        for b in 0..=a {
-            let c = if a == b {
-                sds[a] * sds[a]
-            } else {
-                stats::covariance(&outs[a], &outs[b], means[a], means[b])
-            };
-            cov[a][b] = c;
-            cov[b][a] = c;
-        }
-    }
-    for a in 0..m {
         for b in 0..m {
+            cov[a][b] = total_moments.co[a][b] / dof;
             corr[a][b] = if a == b {
                 1.0
             } else if sds[a] > 0.0 && sds[b] > 0.0 {
@@ -476,11 +586,10 @@ fn run_in_pool(
         }
     }
     let mut results = Vec::with_capacity(m);
-    let mut scratch: Vec<f64> = Vec::new();
     for (j, o) in outs.iter_mut().enumerate() {
-        stats::radix_sort(o, &mut scratch);
-        let sym = stats::symmetric_interval(o, p);
-        let short = stats::shortest_interval(o, p);
+        let summary =
+            stats::summarize(o, p, 60, Some((total_moments.min[j], total_moments.max[j])));
+        let (sym, short) = (summary.symmetric, summary.shortest);
         let g = &gum.results[j];
         let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
         let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
@@ -502,7 +611,7 @@ fn run_in_pool(
                 passed: d_low <= delta && d_high <= delta,
             },
             non_finite_dropped: dropped,
-            histogram: stats::histogram(o, 60),
+            histogram: summary.histogram,
         });
     }
     let mnames: Vec<String> = model.measurands.iter().map(|x| x.name.clone()).collect();

@@ -25,6 +25,42 @@ pub fn sum(xs: impl Iterator<Item = f64>) -> f64 {
     s + c
 }
 
+/// Mean of a block, summed as deviations from its first value in four
+/// interleaved accumulators: the shift removes any large offset, so the
+/// plain sums of values of the size of the spread lose nothing that
+/// matters, and the loop runs at the speed of the memory.
+pub fn shifted_mean(v: &[f64]) -> f64 {
+    let Some(&x0) = v.first() else { return 0.0 };
+    let mut acc = [0.0f64; 4];
+    let chunks = v.chunks_exact(4);
+    let tail: f64 = chunks.remainder().iter().map(|x| x - x0).sum();
+    for c in chunks {
+        for k in 0..4 {
+            acc[k] += c[k] - x0;
+        }
+    }
+    x0 + (acc[0] + acc[1] + acc[2] + acc[3] + tail) / v.len() as f64
+}
+
+/// Σ (a_i − ma)(b_i − mb) over a block, in four interleaved accumulators
+/// (the deviations are already centred, so plain sums are accurate).
+pub fn co_moment(a: &[f64], b: &[f64], ma: f64, mb: f64) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let (ca, cb) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = ca
+        .remainder()
+        .iter()
+        .zip(cb.remainder())
+        .map(|(x, y)| (x - ma) * (y - mb))
+        .sum();
+    for (x, y) in ca.zip(cb) {
+        for k in 0..4 {
+            acc[k] += (x[k] - ma) * (y[k] - mb);
+        }
+    }
+    acc[0] + acc[1] + acc[2] + acc[3] + tail
+}
+
 /// Compensated sum of `f` over fixed chunks, combined in order: the same
 /// result for any number of threads.
 fn chunked_sum(v: &[f64], f: impl Fn(f64) -> f64 + Sync) -> f64 {
@@ -262,5 +298,204 @@ pub fn radix_sort(v: &mut [f64], scratch: &mut Vec<f64>) {
         v.par_iter_mut()
             .zip(scratch.par_iter())
             .for_each(|(x, s)| *x = unkey(s.to_bits()));
+    }
+}
+
+/// Both coverage intervals and the histogram of a set of trials.
+#[derive(Clone, Debug)]
+pub struct Summary {
+    pub symmetric: [f64; 2],
+    pub shortest: [f64; 2],
+    pub histogram: Histogram,
+    /// Whether the values had to be sorted in full (see [`summarize`]).
+    pub sorted_in_full: bool,
+}
+
+const FINE: usize = 1 << 14;
+
+/// The coverage intervals of JCGM 101:2008, 7.7 without sorting all trials.
+///
+/// The order statistics the intervals need are found exactly, in O(M):
+/// one pass counts the values in 16 384 equal bins between their minimum
+/// and maximum (the bin index is a monotone function of the value, so all
+/// values of a lower bin rank below those of a higher one). From the
+/// cumulative counts every rank r has a known bin; the width
+/// y_(r+q) − y_(r) of each candidate shortest interval is bounded above and
+/// below by the bins' edges (widened by a bin, so that rounding in the bin
+/// index cannot matter), which rules out all but a few bins. A second pass
+/// gathers the values of the remaining bins (and of the bins holding the
+/// symmetric interval's ends), which are sorted, and the intervals are
+/// computed from exact order statistics: the result is identical to
+/// sorting every value (a property test holds this). When the candidates
+/// are many (heavy tails squeeze most values into few bins), all values are
+/// sorted instead. The histogram for plots is the fine histogram regrouped
+/// into `bins` bins between the 0.05 % and 99.95 % points. `range` is the
+/// least and greatest value when the caller knows them.
+pub fn summarize(v: &mut [f64], p: f64, bins: usize, range: Option<(f64, f64)>) -> Summary {
+    let m = v.len();
+    let q = interval_count(m, p);
+    let (lo, hi) = range.unwrap_or_else(|| {
+        v.par_chunks(CHUNK)
+            .map(|c| {
+                c.iter()
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                        (a.min(x), b.max(x))
+                    })
+            })
+            .reduce(
+                || (f64::INFINITY, f64::NEG_INFINITY),
+                |(a, b), (c, d)| (a.min(c), b.max(d)),
+            )
+    });
+    let scale = FINE as f64 / (hi - lo);
+    if hi <= lo || !scale.is_finite() || scale == 0.0 || m < 4 * FINE {
+        return summarize_sorted(v, p, bins);
+    }
+    let width = 1.0 / scale;
+    let bin = |x: f64| (((x - lo) * scale) as usize).min(FINE - 1);
+    // Pass 1: counts per bin, one table per thread-sized part.
+    let part = m.div_ceil(rayon::current_num_threads().max(1)).max(CHUNK);
+    let count: Vec<u32> = v
+        .par_chunks(part)
+        .map(|c| {
+            let mut acc = vec![0u32; FINE];
+            for &x in c {
+                acc[bin(x)] += 1;
+            }
+            acc
+        })
+        .reduce(
+            || vec![0u32; FINE],
+            |mut a, o| {
+                for (x, y) in a.iter_mut().zip(o) {
+                    *x += y;
+                }
+                a
+            },
+        );
+    let mut cum = vec![0usize; FINE + 1];
+    for k in 0..FINE {
+        cum[k + 1] = cum[k] + count[k] as usize;
+    }
+    let bin_of_rank = |i: usize| -> usize { cum.partition_point(|&c| c <= i) - 1 };
+    // Conservative value bounds of bin k.
+    let lower_edge = |k: usize| lo + (k as f64 - 1.0) * width;
+    let upper_edge = |k: usize| lo + (k as f64 + 2.0) * width;
+    let mut wanted = vec![false; FINE];
+    // Symmetric interval ends: 1-based ranks r and r + q.
+    let r = (m - q).div_ceil(2).max(1);
+    let sym_ranks = [r - 1, (r + q - 1).min(m - 1)];
+    for &i in &sym_ranks {
+        wanted[bin_of_rank(i)] = true;
+    }
+    // Shortest interval: segments of j (0-based) over which the bins of
+    // j and j + q stay the same, with bounds on the width y_(j+q) − y_(j).
+    let mut segments: Vec<(usize, usize, usize, usize, f64)> = Vec::new(); // (j0, j1, bin j, bin j+q, lower)
+    let mut best_upper = f64::INFINITY;
+    let mut j = 0;
+    while j < m - q {
+        let (ba, bb) = (bin_of_rank(j), bin_of_rank(j + q));
+        let j1 = cum[ba + 1].min(cum[bb + 1] - q).min(m - q);
+        let lower = lower_edge(bb) - upper_edge(ba);
+        let upper = upper_edge(bb) - lower_edge(ba);
+        best_upper = best_upper.min(upper);
+        segments.push((j, j1, ba, bb, lower));
+        j = j1;
+    }
+    segments.retain(|s| s.4 <= best_upper);
+    let mut candidates = 0usize;
+    for s in &segments {
+        candidates += s.1 - s.0;
+        wanted[s.2] = true;
+        wanted[s.3] = true;
+    }
+    let gathered_count: usize = (0..FINE)
+        .filter(|&k| wanted[k])
+        .map(|k| count[k] as usize)
+        .sum();
+    if gathered_count > m / 4 || candidates > m / 4 {
+        return summarize_sorted(v, p, bins);
+    }
+    // Pass 2: gather the wanted bins' values (in the order of the trials)
+    // and sort them.
+    let mut g: Vec<f64> = v
+        .par_chunks(CHUNK)
+        .map(|c| {
+            c.iter()
+                .copied()
+                .filter(|&x| wanted[bin(x)])
+                .collect::<Vec<f64>>()
+        })
+        .collect::<Vec<_>>()
+        .concat();
+    g.sort_unstable_by(f64::total_cmp);
+    let mut offset = vec![usize::MAX; FINE];
+    let mut o = 0;
+    for k in 0..FINE {
+        if wanted[k] {
+            offset[k] = o;
+            o += count[k] as usize;
+        }
+    }
+    let value = |i: usize| -> f64 {
+        let k = bin_of_rank(i);
+        g[offset[k] + (i - cum[k])]
+    };
+    let symmetric = [value(sym_ranks[0]), value(sym_ranks[1])];
+    let mut best = (f64::INFINITY, 0usize);
+    for s in &segments {
+        for j in s.0..s.1 {
+            let w = value(j + q) - value(j);
+            if w < best.0 {
+                best = (w, j);
+            }
+        }
+    }
+    let shortest = [value(best.1), value(best.1 + q)];
+    // Plot histogram: the fine bins regrouped between the 0.05 % and
+    // 99.95 % points (by bin centre).
+    let centre = |k: usize| lo + (k as f64 + 0.5) * width;
+    let qlo = centre(bin_of_rank(((m as f64 * 0.0005) as usize).min(m - 1)));
+    let qhi = centre(bin_of_rank(((m as f64 * 0.9995) as usize).min(m - 1)));
+    let (qlo, qhi) = if qhi > qlo { (qlo, qhi) } else { (lo, hi) };
+    let w = (qhi - qlo) / bins as f64;
+    let edges: Vec<f64> = (0..=bins).map(|i| qlo + w * i as f64).collect();
+    let mut counts = vec![0u64; bins];
+    let (mut below, mut above) = (0u64, 0u64);
+    for (k, &c) in count.iter().enumerate() {
+        let x = centre(k);
+        if c == 0 {
+            continue;
+        } else if x < qlo {
+            below += c as u64;
+        } else if x > qhi {
+            above += c as u64;
+        } else {
+            counts[(((x - qlo) / w) as usize).min(bins - 1)] += c as u64;
+        }
+    }
+    Summary {
+        symmetric,
+        shortest,
+        histogram: Histogram {
+            edges,
+            counts,
+            below,
+            above,
+        },
+        sorted_in_full: false,
+    }
+}
+
+/// The same summary by sorting every value (the fallback, and the
+/// reference the fast path is tested against).
+pub fn summarize_sorted(v: &mut [f64], p: f64, bins: usize) -> Summary {
+    let mut scratch = Vec::new();
+    radix_sort(v, &mut scratch);
+    Summary {
+        symmetric: symmetric_interval(v, p),
+        shortest: shortest_interval(v, p),
+        histogram: histogram(v, bins),
+        sorted_in_full: true,
     }
 }
