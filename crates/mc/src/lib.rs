@@ -332,38 +332,56 @@ impl Engine<'_> {
                 per_block[b].push(chunk);
             }
         }
-        let results: Vec<(Vec<usize>, Option<Bad>, Moments)> = per_block
+        // One contiguous run of blocks per thread, each with buffers
+        // allocated once (the block seeds do not depend on this grouping).
+        let parts = rayon::current_num_threads().clamp(1, n_blocks.max(1));
+        let per_part = n_blocks.div_ceil(parts).max(1);
+        let mut grouped: Vec<Vec<(usize, Vec<&mut [f64]>)>> = Vec::with_capacity(parts);
+        for (b, slices) in per_block.into_iter().enumerate() {
+            if b % per_part == 0 {
+                grouped.push(Vec::with_capacity(per_part));
+            }
+            grouped.last_mut().expect("pushed above").push((b, slices));
+        }
+        let results: Vec<(Vec<usize>, Option<Bad>, Moments)> = grouped
             .into_par_iter()
-            .enumerate()
-            .map_init(
-                || (vec![vec![0.0; BLOCK]; n_in], Vec::<f64>::new()),
-                |(cols, scratch), (b, mut slices)| {
-                    let block_index = (start / BLOCK + b) as u64;
-                    let mut rng = sample::Stream::seed_from_u64(block_seed(self.seed, block_index));
-                    let blen = slices[0].len();
-                    for g in &self.groups {
-                        g.fill(&mut rng, cols, blen, scratch);
-                    }
-                    let col_refs: Vec<&[f64]> = cols.iter().map(|c| &c[..blen]).collect();
-                    let report = self
-                        .tape
-                        .eval_batch(&col_refs, &mut slices)
-                        .expect("columns and outputs have the tape's shape");
-                    let bad = report
-                        .first_non_finite
-                        .iter()
-                        .enumerate()
-                        .filter_map(|(j, f)| f.map(|i| (i, j)))
-                        .min()
-                        .map(|(i, j)| Bad {
-                            trial: start + b * BLOCK + i,
-                            measurand: j,
-                            inputs: cols.iter().map(|c| c[i]).collect(),
-                        });
-                    let moments = Moments::of_block(&slices, report.all_finite());
-                    (report.non_finite, bad, moments)
-                },
-            )
+            .map(|blocks| {
+                let mut cols = vec![vec![0.0; BLOCK]; n_in];
+                let mut scratch = Vec::<f64>::new();
+                blocks
+                    .into_iter()
+                    .map(|(b, mut slices)| {
+                        let block_index = (start / BLOCK + b) as u64;
+                        let mut rng =
+                            sample::Stream::seed_from_u64(block_seed(self.seed, block_index));
+                        let blen = slices[0].len();
+                        for g in &self.groups {
+                            g.fill(&mut rng, &mut cols, blen, &mut scratch);
+                        }
+                        let col_refs: Vec<&[f64]> = cols.iter().map(|c| &c[..blen]).collect();
+                        let report = self
+                            .tape
+                            .eval_batch(&col_refs, &mut slices)
+                            .expect("columns and outputs have the tape's shape");
+                        let bad = report
+                            .first_non_finite
+                            .iter()
+                            .enumerate()
+                            .filter_map(|(j, f)| f.map(|i| (i, j)))
+                            .min()
+                            .map(|(i, j)| Bad {
+                                trial: start + b * BLOCK + i,
+                                measurand: j,
+                                inputs: cols.iter().map(|c| c[i]).collect(),
+                            });
+                        let moments = Moments::of_block(&slices, report.all_finite());
+                        (report.non_finite, bad, moments)
+                    })
+                    .collect::<Vec<_>>()
+            })
+            .collect::<Vec<_>>()
+            .into_iter()
+            .flatten()
             .collect();
         let mut counts = vec![0usize; m];
         let mut first: Option<Bad> = None;

@@ -7,7 +7,9 @@
 //!
 //! - Gaussian (6.4.7): x + u·z, z standard normal (ziggurat of `rand_distr`).
 //! - Scaled and shifted t (6.4.9): x + u·t_ν; for a Type A input
-//!   u = s/√n and ν = n − 1, which is JCGM 101's t_ν(x̄, s²/n).
+//!   u = s/√n and ν = n − 1, which is JCGM 101's t_ν(x̄, s²/n). For ν ≥ 2,
+//!   t = z·√(ν/W) with W = 2G and G gamma by Marsaglia and Tsang's method,
+//!   inline; below, `rand_distr::StudentT`.
 //! - Rectangular (6.4.2): x + a(2r − 1).
 //! - Curvilinear trapezoid (6.4.3.4): limits a_s = x − a + d(2r₁ − 1) and its
 //!   mirror, then a rectangular draw between them.
@@ -138,9 +140,37 @@ impl Marginal {
                     *o = x + u * z;
                 }
             }
-            Marginal::T { x, u, t, .. } => {
-                for o in out {
-                    *o = x + u * t.sample(rng);
+            Marginal::T { x, u, nu, t } => {
+                if *nu < 2.0 {
+                    for o in out {
+                        *o = x + u * t.sample(rng);
+                    }
+                } else {
+                    // t = z·√(ν/W), W = 2G, G ~ Gamma(ν/2, 1) by Marsaglia and
+                    // Tsang's method (ACM TOMS 26, 363 (2000), from memory):
+                    // d = ν/2 − 1/3, c = 1/√(9d), G = d·v³ with v = 1 + c·z'
+                    // accepted by the squeeze or the log test.
+                    let d = 0.5 * nu - 1.0 / 3.0;
+                    let c = 1.0 / (9.0 * d).sqrt();
+                    for o in out {
+                        let g = loop {
+                            let zg: f64 = rng.sample(StandardNormal);
+                            let v = 1.0 + c * zg;
+                            if v <= 0.0 {
+                                continue;
+                            }
+                            let v = v * v * v;
+                            let r: f64 = rng.random();
+                            let z2 = zg * zg;
+                            if r < 1.0 - 0.0331 * z2 * z2
+                                || r.ln() < 0.5 * z2 + d * (1.0 - v + v.ln())
+                            {
+                                break d * v;
+                            }
+                        };
+                        let z: f64 = rng.sample(StandardNormal);
+                        *o = x + u * z * (nu / (2.0 * g)).sqrt();
+                    }
                 }
             }
             Marginal::Rectangular { x, a } => {
