@@ -302,6 +302,9 @@ impl Moments {
     }
 }
 
+/// A block's index and its slice of every measurand's output.
+type BlockSlices<'a> = (usize, Vec<&'a mut [f64]>);
+
 /// A non-finite result met in a block.
 #[derive(Clone, Debug)]
 struct Bad {
@@ -336,7 +339,7 @@ impl Engine<'_> {
         // allocated once (the block seeds do not depend on this grouping).
         let parts = rayon::current_num_threads().clamp(1, n_blocks.max(1));
         let per_part = n_blocks.div_ceil(parts).max(1);
-        let mut grouped: Vec<Vec<(usize, Vec<&mut [f64]>)>> = Vec::with_capacity(parts);
+        let mut grouped: Vec<Vec<BlockSlices>> = Vec::with_capacity(parts);
         for (b, slices) in per_block.into_iter().enumerate() {
             if b % per_part == 0 {
                 grouped.push(Vec::with_capacity(per_part));
