@@ -1,0 +1,95 @@
+//! Columns of a CSV file by header name, with errors that name the file,
+//! the line and the column. The file is only read.
+
+use std::path::Path;
+
+/// A problem with a data file.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{0}")]
+pub struct DataError(pub String);
+
+/// The requested columns and the 1-based data row of each value.
+#[derive(Clone, Debug)]
+pub struct Columns {
+    pub columns: Vec<Vec<f64>>,
+    pub rows: Vec<usize>,
+}
+
+/// Largest data file read, in bytes.
+pub const MAX_DATA_BYTES: u64 = 256 << 20;
+
+/// Read the named columns as numbers. Every cell of them must hold a
+/// finite number; the first line is the header.
+pub fn read_columns(path: &Path, names: &[&str]) -> Result<Columns, DataError> {
+    let file = path.display().to_string();
+    let meta = std::fs::metadata(path)
+        .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
+    if meta.len() > MAX_DATA_BYTES {
+        return Err(DataError(format!(
+            "{file}: the data file is larger than {MAX_DATA_BYTES} bytes"
+        )));
+    }
+    let mut rdr = csv::ReaderBuilder::new()
+        .flexible(true)
+        .trim(csv::Trim::All)
+        .comment(Some(b'#'))
+        .from_path(path)
+        .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
+    let headers = rdr
+        .headers()
+        .map_err(|e| DataError(format!("{file}:1: cannot read the header line: {e}")))?
+        .clone();
+    let mut idx = Vec::new();
+    for n in names {
+        match headers.iter().position(|h| h == *n) {
+            Some(i) => idx.push(i),
+            None => {
+                return Err(DataError(format!(
+                    "{file}:1: no column named `{n}`; the columns are: {}",
+                    headers.iter().collect::<Vec<_>>().join(", ")
+                )))
+            }
+        }
+    }
+    let mut columns = vec![Vec::new(); names.len()];
+    let mut rows = Vec::new();
+    for (k, rec) in rdr.records().enumerate() {
+        let rec = rec.map_err(|e| {
+            let line = e.position().map_or(0, |p| p.line());
+            DataError(format!("{file}:{line}: cannot read the line: {e}"))
+        })?;
+        let line = rec.position().map_or(k as u64 + 2, |p| p.line());
+        for (c, &i) in idx.iter().enumerate() {
+            let cell = rec.get(i).ok_or_else(|| {
+                DataError(format!(
+                    "{file}:{line}: column `{}` is missing (the line is shorter than the header)",
+                    names[c]
+                ))
+            })?;
+            if cell.is_empty() {
+                return Err(DataError(format!(
+                    "{file}:{line}: column `{}` is empty",
+                    names[c]
+                )));
+            }
+            let v: f64 = cell.parse().map_err(|_| {
+                DataError(format!(
+                    "{file}:{line}: column `{}` holds `{cell}`, which is not a number",
+                    names[c]
+                ))
+            })?;
+            if !v.is_finite() {
+                return Err(DataError(format!(
+                    "{file}:{line}: column `{}` holds `{cell}`, which is not finite",
+                    names[c]
+                )));
+            }
+            columns[c].push(v);
+        }
+        rows.push(k + 1);
+    }
+    if rows.is_empty() {
+        return Err(DataError(format!("{file}: the data file has no data rows")));
+    }
+    Ok(Columns { columns, rows })
+}

@@ -1,0 +1,263 @@
+//! Least-squares fits as sources of correlated input quantities: ordinary
+//! and weighted least squares for polynomials of any degree and general
+//! linear models, solved by Householder QR of the column-scaled design
+//! matrix (nalgebra), and York's method for a straight line with
+//! uncertainties in both x and y (D. York, N. M. Evensen, M. López Martínez,
+//! J. De Basabe Delgado, Am. J. Phys. 72, 367 (2004), recalled from memory).
+//!
+//! Results: parameters with their covariance and correlation matrix, the
+//! residual standard deviation, dof and R², and per point the residual,
+//! standardised and studentised residual, leverage and Cook's distance.
+//! Points beyond the conventional thresholds are flagged, never dropped;
+//! exclusions are explicit row numbers with a reason, and the result without
+//! them is kept beside (JCGM 100:2008, H.3 is the worked example of a
+//! calibration line whose slope and intercept are correlated inputs).
+//!
+//! Left out: non-linear least squares, robust regression.
+
+mod csvdata;
+mod linear;
+mod york;
+
+pub use csvdata::{read_columns, Columns, DataError};
+pub use linear::{fit_basis, fit_polynomial};
+pub use york::fit_york;
+
+use serde::Serialize;
+
+/// A fitted parameter.
+#[derive(Clone, Debug, Serialize)]
+pub struct Parameter {
+    pub name: String,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+}
+
+/// Diagnostics of one data point.
+#[derive(Clone, Debug, Serialize)]
+pub struct Point {
+    /// 1-based data row (the first row after the header is 1).
+    pub row: usize,
+    pub x: f64,
+    pub y: f64,
+    pub residual: f64,
+    pub standardized_residual: f64,
+    pub studentized_residual: f64,
+    pub leverage: f64,
+    pub cooks_distance: f64,
+    pub flagged: bool,
+    /// Why a point is flagged, in words.
+    pub flags: Vec<String>,
+    pub excluded: bool,
+}
+
+/// The result of a fit.
+#[derive(Clone, Debug, Serialize)]
+pub struct FitResult {
+    /// "ordinary least squares", "weighted least squares", "York".
+    pub method: String,
+    pub parameters: Vec<Parameter>,
+    pub covariance: Vec<Vec<f64>>,
+    pub correlation: Vec<Vec<f64>>,
+    pub residual_standard_deviation: f64,
+    pub dof: usize,
+    pub r_squared: f64,
+    /// Weighted fits: Σ ((y − ŷ)/u)², χ²/ν and P(χ²_ν ≥ χ²).
+    pub chi_squared: Option<f64>,
+    pub chi_squared_per_dof: Option<f64>,
+    pub p_value: Option<f64>,
+    /// Whether the covariance of a weighted fit was multiplied by χ²/ν.
+    pub scaled_by_chi_squared: bool,
+    pub points: Vec<Point>,
+    pub excluded_rows: Vec<usize>,
+    pub exclude_reason: Option<String>,
+    /// The same fit on every point, when some were excluded.
+    pub without_exclusions: Option<Box<FitResult>>,
+}
+
+impl FitResult {
+    pub fn parameter(&self, name: &str) -> Option<usize> {
+        self.parameters.iter().position(|p| p.name == name)
+    }
+}
+
+/// Why a fit cannot be made.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{0}")]
+pub struct FitError(pub String);
+
+/// What to fit.
+#[derive(Clone, Debug)]
+pub struct FitRequest<'a> {
+    pub x: &'a [f64],
+    pub y: &'a [f64],
+    /// Standard uncertainties of y (weighted fit).
+    pub u_y: Option<&'a [f64]>,
+    /// Standard uncertainties of x (York's method; needs `u_y`).
+    pub u_x: Option<&'a [f64]>,
+    /// 1-based row numbers of the points (for reports and exclusions).
+    pub rows: Vec<usize>,
+    pub degree: usize,
+    pub exclude: Vec<usize>,
+    pub exclude_reason: Option<String>,
+    /// For weighted fits: multiply the covariance by χ²/ν.
+    pub scale_by_chi_squared: bool,
+}
+
+/// Names of polynomial coefficients: intercept and slope for a straight
+/// line, c0, c1, ... otherwise.
+pub fn coefficient_names(degree: usize) -> Vec<String> {
+    if degree == 1 {
+        vec!["intercept".into(), "slope".into()]
+    } else {
+        (0..=degree).map(|k| format!("c{k}")).collect()
+    }
+}
+
+/// Fit a polynomial (or, with `u_x`, York's straight line), with and without
+/// the exclusions.
+pub fn fit(req: &FitRequest) -> Result<FitResult, FitError> {
+    let n = req.x.len();
+    if req.y.len() != n
+        || req.u_y.is_some_and(|u| u.len() != n)
+        || req.u_x.is_some_and(|u| u.len() != n)
+    {
+        return Err(FitError(
+            "the columns of the fit have different lengths".into(),
+        ));
+    }
+    for &r in &req.exclude {
+        if !req.rows.contains(&r) {
+            return Err(FitError(format!(
+                "exclude names row {r}, but the data has rows {} to {}",
+                req.rows.first().copied().unwrap_or(0),
+                req.rows.last().copied().unwrap_or(0)
+            )));
+        }
+    }
+    let keep: Vec<bool> = req.rows.iter().map(|r| !req.exclude.contains(r)).collect();
+    let pick = |v: &[f64]| -> Vec<f64> {
+        v.iter()
+            .zip(&keep)
+            .filter(|(_, k)| **k)
+            .map(|(x, _)| *x)
+            .collect()
+    };
+    let run =
+        |x: &[f64], y: &[f64], uy: Option<Vec<f64>>, ux: Option<Vec<f64>>, rows: Vec<usize>| {
+            if let Some(ux) = ux {
+                let uy = uy.ok_or_else(|| {
+                    FitError("York's method needs the uncertainties of y as well as of x".into())
+                })?;
+                if req.degree != 1 {
+                    return Err(FitError(
+                        "York's method fits a straight line (degree 1)".into(),
+                    ));
+                }
+                fit_york(x, y, &ux, &uy, &rows, req.scale_by_chi_squared)
+            } else {
+                fit_polynomial(
+                    x,
+                    y,
+                    uy.as_deref(),
+                    &rows,
+                    req.degree,
+                    req.scale_by_chi_squared,
+                )
+            }
+        };
+    let all = run(
+        req.x,
+        req.y,
+        req.u_y.map(<[f64]>::to_vec),
+        req.u_x.map(<[f64]>::to_vec),
+        req.rows.clone(),
+    )?;
+    if req.exclude.is_empty() {
+        return Ok(all);
+    }
+    let rows: Vec<usize> = req
+        .rows
+        .iter()
+        .zip(&keep)
+        .filter(|(_, k)| **k)
+        .map(|(r, _)| *r)
+        .collect();
+    let mut kept = run(
+        &pick(req.x),
+        &pick(req.y),
+        req.u_y.map(pick),
+        req.u_x.map(pick),
+        rows,
+    )?;
+    // Report every point, the excluded ones marked, with the diagnostics of
+    // the fit that included them.
+    let mut points = Vec::with_capacity(n);
+    for p in &all.points {
+        match kept.points.iter().find(|q| q.row == p.row) {
+            Some(q) => points.push(q.clone()),
+            None => {
+                let mut e = p.clone();
+                e.excluded = true;
+                points.push(e);
+            }
+        }
+    }
+    kept.points = points;
+    kept.excluded_rows = req.exclude.clone();
+    kept.exclude_reason = req.exclude_reason.clone();
+    kept.without_exclusions = Some(Box::new(all));
+    Ok(kept)
+}
+
+/// Correlation matrix from a covariance matrix.
+pub(crate) fn correlation(cov: &[Vec<f64>]) -> Vec<Vec<f64>> {
+    let p = cov.len();
+    (0..p)
+        .map(|i| {
+            (0..p)
+                .map(|j| {
+                    if i == j {
+                        1.0
+                    } else {
+                        let d = (cov[i][i] * cov[j][j]).sqrt();
+                        if d > 0.0 {
+                            (cov[i][j] / d).clamp(-1.0, 1.0)
+                        } else {
+                            0.0
+                        }
+                    }
+                })
+                .collect()
+        })
+        .collect()
+}
+
+/// Flags by conventional thresholds (common practice, no single published
+/// source; the leverage rule 2p/n and |studentised residual| > 2 follow
+/// D. A. Belsley, E. Kuh, R. E. Welsch, Regression Diagnostics (1980), and
+/// Cook's distance > 4/n is a common rule of thumb; recalled from memory).
+pub(crate) fn flags(p: &Point, n: usize, params: usize) -> Vec<String> {
+    let mut f = Vec::new();
+    if p.studentized_residual.abs() > 2.0 {
+        f.push(format!(
+            "|studentised residual| = {:.2} > 2",
+            p.studentized_residual.abs()
+        ));
+    }
+    if p.leverage > 2.0 * params as f64 / n as f64 {
+        f.push(format!(
+            "leverage {:.3} > 2p/n = {:.3}",
+            p.leverage,
+            2.0 * params as f64 / n as f64
+        ));
+    }
+    if p.cooks_distance > 4.0 / n as f64 {
+        f.push(format!(
+            "Cook's distance {:.3} > 4/n = {:.3}",
+            p.cooks_distance,
+            4.0 / n as f64
+        ));
+    }
+    f
+}

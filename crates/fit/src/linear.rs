@@ -1,0 +1,302 @@
+//! Linear least squares by Householder QR of the column-scaled design
+//! matrix. For a polynomial the abscissa is first centred and scaled
+//! (t = (x − x̄)/s), which keeps the design well conditioned; the coefficients
+//! and their covariance are then mapped back to powers of x exactly (a
+//! linear map M: a = M β, V_a = M V_β Mᵀ).
+
+use nalgebra::{DMatrix, DVector};
+use statrs::distribution::{ChiSquared, ContinuousCDF};
+
+use crate::{coefficient_names, correlation, flags, FitError, FitResult, Parameter, Point};
+
+/// Solution of a (weighted) linear least-squares problem.
+struct Solution {
+    beta: Vec<f64>,
+    /// (XᵀWX)⁻¹.
+    unscaled_cov: Vec<Vec<f64>>,
+    leverage: Vec<f64>,
+}
+
+fn solve(x: &DMatrix<f64>, y: &[f64], w: Option<&[f64]>) -> Result<Solution, FitError> {
+    let (n, p) = x.shape();
+    let sw: Vec<f64> = (0..n).map(|i| w.map_or(1.0, |w| w[i].sqrt())).collect();
+    let mut a = x.clone();
+    for i in 0..n {
+        for j in 0..p {
+            a[(i, j)] *= sw[i];
+        }
+    }
+    let scale: Vec<f64> = (0..p).map(|j| a.column(j).norm()).collect();
+    if let Some(j) = scale.iter().position(|s| *s == 0.0 || !s.is_finite()) {
+        return Err(FitError(format!(
+            "column {} of the design is zero or not finite",
+            j + 1
+        )));
+    }
+    for j in 0..p {
+        let s = scale[j];
+        a.column_mut(j).scale_mut(1.0 / s);
+    }
+    let b = DVector::from_iterator(n, (0..n).map(|i| y[i] * sw[i]));
+    let qr = a.qr();
+    let q = qr.q();
+    let r = qr.r();
+    // A rank-deficient design has a (near) zero on R's diagonal.
+    let rmax = (0..p).map(|j| r[(j, j)].abs()).fold(0.0, f64::max);
+    if let Some(j) = (0..p).find(|&j| r[(j, j)].abs() <= 1e-13 * rmax) {
+        return Err(FitError(format!(
+            "the design is rank deficient (column {} depends on the others); fewer distinct x values than parameters?",
+            j + 1
+        )));
+    }
+    let qtb = q.transpose() * &b;
+    let beta_s = r
+        .solve_upper_triangular(&qtb)
+        .ok_or_else(|| FitError("the least-squares system is singular".into()))?;
+    let rinv = r
+        .solve_upper_triangular(&DMatrix::identity(p, p))
+        .ok_or_else(|| FitError("the least-squares system is singular".into()))?;
+    let cs = &rinv * rinv.transpose();
+    let beta = (0..p).map(|j| beta_s[j] / scale[j]).collect();
+    let unscaled_cov = (0..p)
+        .map(|i| (0..p).map(|j| cs[(i, j)] / (scale[i] * scale[j])).collect())
+        .collect();
+    let leverage = (0..n).map(|i| q.row(i).norm_squared()).collect();
+    Ok(Solution {
+        beta,
+        unscaled_cov,
+        leverage,
+    })
+}
+
+/// Assemble the result from a solution of the design `x` (not yet mapped).
+#[allow(clippy::too_many_arguments)]
+fn finish(
+    names: Vec<String>,
+    beta: Vec<f64>,
+    unscaled_cov: Vec<Vec<f64>>,
+    leverage: Vec<f64>,
+    fitted: Vec<f64>,
+    xs: &[f64],
+    y: &[f64],
+    u_y: Option<&[f64]>,
+    rows: &[usize],
+    scale_by_chi2: bool,
+) -> FitResult {
+    let n = y.len();
+    let p = beta.len();
+    let nu = n - p;
+    let w: Vec<f64> = (0..n)
+        .map(|i| u_y.map_or(1.0, |u| 1.0 / (u[i] * u[i])))
+        .collect();
+    let resid: Vec<f64> = (0..n).map(|i| y[i] - fitted[i]).collect();
+    let rss: f64 = (0..n).map(|i| w[i] * resid[i] * resid[i]).sum();
+    let s2 = rss / nu as f64;
+    let weighted = u_y.is_some();
+    let factor = if !weighted || scale_by_chi2 { s2 } else { 1.0 };
+    let cov: Vec<Vec<f64>> = unscaled_cov
+        .iter()
+        .map(|row| row.iter().map(|v| v * factor).collect())
+        .collect();
+    let wsum: f64 = w.iter().sum();
+    let ybar = (0..n).map(|i| w[i] * y[i]).sum::<f64>() / wsum;
+    let tss: f64 = (0..n).map(|i| w[i] * (y[i] - ybar).powi(2)).sum();
+    // Residual scale of the diagnostics: s for unweighted or scaled fits,
+    // 1 for weighted fits whose u(y) are taken as known.
+    let sd = factor.sqrt();
+    let points = (0..n)
+        .map(|i| {
+            let h = leverage[i].min(1.0 - 1e-15);
+            let r = w[i].sqrt() * resid[i];
+            let standardized = r / (sd * (1.0 - h).sqrt());
+            let s_i2 = if nu > 1 {
+                ((nu as f64) * factor - r * r / (1.0 - h)) / (nu as f64 - 1.0)
+            } else {
+                f64::NAN
+            };
+            let studentized = if !weighted || scale_by_chi2 {
+                r / (s_i2.max(0.0).sqrt() * (1.0 - h).sqrt())
+            } else {
+                standardized
+            };
+            let cooks = standardized * standardized * h / ((1.0 - h) * p as f64);
+            let mut pt = Point {
+                row: rows[i],
+                x: xs[i],
+                y: y[i],
+                residual: resid[i],
+                standardized_residual: standardized,
+                studentized_residual: studentized,
+                leverage: leverage[i],
+                cooks_distance: cooks,
+                flagged: false,
+                flags: Vec::new(),
+                excluded: false,
+            };
+            pt.flags = flags(&pt, n, p);
+            pt.flagged = !pt.flags.is_empty();
+            pt
+        })
+        .collect();
+    let (chi2, chi2_nu, pval) = if weighted {
+        let pv = ChiSquared::new(nu as f64)
+            .map(|d| d.sf(rss))
+            .unwrap_or(f64::NAN);
+        (Some(rss), Some(s2), Some(pv))
+    } else {
+        (None, None, None)
+    };
+    FitResult {
+        method: if weighted {
+            "weighted least squares".into()
+        } else {
+            "ordinary least squares".into()
+        },
+        parameters: names
+            .into_iter()
+            .zip(beta.iter())
+            .zip(cov.iter().enumerate())
+            .map(|((name, &value), (j, row))| Parameter {
+                name,
+                value,
+                standard_uncertainty: row[j].sqrt(),
+            })
+            .collect(),
+        correlation: correlation(&cov),
+        covariance: cov,
+        residual_standard_deviation: s2.sqrt(),
+        dof: nu,
+        r_squared: if tss > 0.0 { 1.0 - rss / tss } else { 1.0 },
+        chi_squared: chi2,
+        chi_squared_per_dof: chi2_nu,
+        p_value: pval,
+        scaled_by_chi_squared: weighted && scale_by_chi2,
+        points,
+        excluded_rows: Vec::new(),
+        exclude_reason: None,
+        without_exclusions: None,
+    }
+}
+
+fn check_size(n: usize, p: usize) -> Result<(), FitError> {
+    if n < p + 1 {
+        return Err(FitError(format!(
+            "{n} points are too few for {p} parameters: a fit needs at least parameters + 1 = {} points \
+             (so that the residuals leave at least one degree of freedom)",
+            p + 1
+        )));
+    }
+    Ok(())
+}
+
+fn check_u(u_y: Option<&[f64]>) -> Result<(), FitError> {
+    if let Some(u) = u_y {
+        if let Some(i) = u.iter().position(|v| !(*v > 0.0) || !v.is_finite()) {
+            return Err(FitError(format!(
+                "the uncertainty of y at point {} is not a positive number",
+                i + 1
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Fit y = c0 + c1 x + ... + c_d x^d (ordinary, or weighted when `u_y`).
+pub fn fit_polynomial(
+    x: &[f64],
+    y: &[f64],
+    u_y: Option<&[f64]>,
+    rows: &[usize],
+    degree: usize,
+    scale_by_chi2: bool,
+) -> Result<FitResult, FitError> {
+    let n = x.len();
+    let p = degree + 1;
+    check_size(n, p)?;
+    check_u(u_y)?;
+    let c = x.iter().sum::<f64>() / n as f64;
+    let s = x.iter().map(|v| (v - c).abs()).fold(0.0, f64::max);
+    let s = if s > 0.0 { s } else { 1.0 };
+    let t: Vec<f64> = x.iter().map(|v| (v - c) / s).collect();
+    let design = DMatrix::from_fn(n, p, |i, j| t[i].powi(j as i32));
+    let w: Option<Vec<f64>> = u_y.map(|u| u.iter().map(|v| 1.0 / (v * v)).collect());
+    let sol = solve(&design, y, w.as_deref())?;
+    // Map β (in t) to coefficients of x: a_j = Σ_k C(k, j) (−c)^(k−j) s^(−k) β_k.
+    let mut m = vec![vec![0.0; p]; p];
+    for (k, _) in sol.beta.iter().enumerate() {
+        for (j, row) in m.iter_mut().enumerate().take(k + 1) {
+            row[k] = binomial(k, j) * (-c).powi((k - j) as i32) / s.powi(k as i32);
+        }
+    }
+    let a: Vec<f64> = (0..p)
+        .map(|j| (0..p).map(|k| m[j][k] * sol.beta[k]).sum())
+        .collect();
+    let vb = &sol.unscaled_cov;
+    let va: Vec<Vec<f64>> = (0..p)
+        .map(|i| {
+            (0..p)
+                .map(|j| {
+                    (0..p)
+                        .map(|k| (0..p).map(|l| m[i][k] * vb[k][l] * m[j][l]).sum::<f64>())
+                        .sum()
+                })
+                .collect()
+        })
+        .collect();
+    // Fitted values from the well-conditioned form.
+    let fitted: Vec<f64> = t
+        .iter()
+        .map(|&tv| sol.beta.iter().rev().fold(0.0, |acc, b| acc * tv + b))
+        .collect();
+    Ok(finish(
+        coefficient_names(degree),
+        a,
+        va,
+        sol.leverage,
+        fitted,
+        x,
+        y,
+        u_y,
+        rows,
+        scale_by_chi2,
+    ))
+}
+
+/// Fit a general linear model y = Σ β_j f_j with the basis columns given
+/// (`columns[j][i]` = f_j at point i); `xs` is only reported.
+pub fn fit_basis(
+    names: Vec<String>,
+    columns: &[Vec<f64>],
+    xs: &[f64],
+    y: &[f64],
+    u_y: Option<&[f64]>,
+    rows: &[usize],
+    scale_by_chi2: bool,
+) -> Result<FitResult, FitError> {
+    let n = y.len();
+    let p = columns.len();
+    check_size(n, p)?;
+    check_u(u_y)?;
+    let design = DMatrix::from_fn(n, p, |i, j| columns[j][i]);
+    let w: Option<Vec<f64>> = u_y.map(|u| u.iter().map(|v| 1.0 / (v * v)).collect());
+    let sol = solve(&design, y, w.as_deref())?;
+    let fitted: Vec<f64> = (0..n)
+        .map(|i| (0..p).map(|j| columns[j][i] * sol.beta[j]).sum())
+        .collect();
+    Ok(finish(
+        names,
+        sol.beta,
+        sol.unscaled_cov,
+        sol.leverage,
+        fitted,
+        xs,
+        y,
+        u_y,
+        rows,
+        scale_by_chi2,
+    ))
+}
+
+fn binomial(n: usize, k: usize) -> f64 {
+    (0..k).fold(1.0, |acc, i| acc * (n - i) as f64 / (i + 1) as f64)
+}
