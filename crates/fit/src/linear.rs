@@ -33,8 +33,7 @@ fn solve(x: &DMatrix<f64>, y: &[f64], w: Option<&[f64]>) -> Result<Solution, Fit
             j + 1
         )));
     }
-    for j in 0..p {
-        let s = scale[j];
+    for (j, s) in scale.iter().enumerate() {
         a.column_mut(j).scale_mut(1.0 / s);
     }
     let b = DVector::from_iterator(n, (0..n).map(|i| y[i] * sw[i]));
@@ -191,7 +190,10 @@ fn check_size(n: usize, p: usize) -> Result<(), FitError> {
 
 fn check_u(u_y: Option<&[f64]>) -> Result<(), FitError> {
     if let Some(u) = u_y {
-        if let Some(i) = u.iter().position(|v| !(*v > 0.0) || !v.is_finite()) {
+        if let Some(i) = u
+            .iter()
+            .position(|v| v.is_nan() || *v <= 0.0 || !v.is_finite())
+        {
             return Err(FitError(format!(
                 "the uncertainty of y at point {} is not a positive number",
                 i + 1
