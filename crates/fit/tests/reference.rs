@@ -129,16 +129,11 @@ fn york_matches_orthogonal_distance_regression() {
         .iter()
         .map(floats)
         .collect();
-    for j in 0..2 {
-        for k in 0..2 {
+    for (got_row, want_row) in r.covariance.iter().zip(&cov) {
+        for (got, want) in got_row.iter().zip(want_row) {
             // The two covariance formulas are both first order at the
             // solution; they agree to about 1 % here.
-            assert!(
-                rel(r.covariance[j][k], cov[j][k]) < 0.02,
-                "cov[{j}][{k}] {} vs {}",
-                r.covariance[j][k],
-                cov[j][k]
-            );
+            assert!(rel(*got, *want) < 0.02, "covariance {got} vs {want}");
         }
     }
 }
