@@ -13,6 +13,7 @@ use clap::{Parser, Subcommand};
 
 mod derive_cmd;
 mod eval_cmd;
+mod fit_cmd;
 pub mod report;
 
 /// Exit code for a problem with the user's input.
@@ -40,6 +41,8 @@ enum Command {
     Eval(eval_cmd::EvalArgs),
     /// Compare the sensitivity coefficients and results stated in a model file with the computed ones
     Check(eval_cmd::CheckArgs),
+    /// Fit a straight line or polynomial to columns of a CSV file by least squares, with diagnostics
+    Fit(fit_cmd::FitArgs),
 }
 
 /// An error a command reports: the text to print and the exit code.
@@ -94,6 +97,7 @@ where
         Command::Derive(a) => derive_cmd::run(&a, out),
         Command::Eval(a) => eval_cmd::run_eval(&a, out),
         Command::Check(a) => eval_cmd::run_check(&a, out),
+        Command::Fit(a) => fit_cmd::run(&a, out),
     };
     match result {
         Ok(()) => 0,

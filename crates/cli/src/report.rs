@@ -89,7 +89,9 @@ fn budget_rows(r: &MeasurandResult) -> Vec<Vec<String>> {
         }
         row.extend([
             String::new(),
-            if c.from_observations {
+            if let Some(f) = &c.from_fit {
+                format!("fit {f}")
+            } else if c.from_observations {
                 "observed together".into()
             } else {
                 "stated".into()
@@ -218,6 +220,148 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
     lines
 }
 
+/// A fit as text: method, parameters, covariance, diagnostics, flags and
+/// exclusions, with the result without the exclusions beside.
+pub fn fit_text(title: &str, f: &incertus_fit::FitResult) -> String {
+    let mut out = format!("{title}\n");
+    out.push_str(&format!(
+        "method: {}; {} points used, {} parameters, dof = {}\n",
+        f.method,
+        f.points.iter().filter(|p| !p.excluded).count(),
+        f.parameters.len(),
+        f.dof
+    ));
+    let mut rows = vec![vec![
+        "parameter".to_string(),
+        "value".into(),
+        "standard uncertainty".into(),
+    ]];
+    for p in &f.parameters {
+        rows.push(vec![
+            p.name.clone(),
+            significant(p.value, 8),
+            significant(p.standard_uncertainty, 5),
+        ]);
+    }
+    out.push_str(&aligned(&rows));
+    if f.parameters.len() > 1 {
+        out.push_str("correlation matrix of the parameters\n");
+        let mut rows = vec![std::iter::once(String::new())
+            .chain(f.parameters.iter().map(|p| p.name.clone()))
+            .collect::<Vec<_>>()];
+        for (i, row) in f.correlation.iter().enumerate() {
+            rows.push(
+                std::iter::once(f.parameters[i].name.clone())
+                    .chain(row.iter().map(|v| format!("{v:.4}")))
+                    .collect(),
+            );
+        }
+        out.push_str(&aligned(&rows));
+    }
+    out.push_str(&format!(
+        "residual standard deviation {}, R² = {}\n",
+        significant(f.residual_standard_deviation, 5),
+        if f.r_squared.is_finite() {
+            format!("{:.6}", f.r_squared)
+        } else {
+            "n/a".into()
+        }
+    ));
+    if let (Some(c), Some(cn), Some(pv)) = (f.chi_squared, f.chi_squared_per_dof, f.p_value) {
+        out.push_str(&format!(
+            "χ² = {}, χ²/ν = {}, p = {}; the covariance is {} (the stated u(y) are taken {})\n",
+            significant(c, 5),
+            significant(cn, 4),
+            significant(pv, 3),
+            if f.scaled_by_chi_squared {
+                "multiplied by χ²/ν"
+            } else {
+                "not scaled"
+            },
+            if f.scaled_by_chi_squared {
+                "as relative only"
+            } else {
+                "as known"
+            }
+        ));
+    }
+    let mut rows = vec![[
+        "row",
+        "x",
+        "y",
+        "residual",
+        "studentised",
+        "leverage",
+        "Cook's D",
+        "note",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect::<Vec<_>>()];
+    for p in &f.points {
+        let note = if p.excluded {
+            format!(
+                "EXCLUDED{}",
+                f.exclude_reason
+                    .as_ref()
+                    .map(|r| format!(": {r}"))
+                    .unwrap_or_default()
+            )
+        } else if p.flagged {
+            format!("flagged: {}", p.flags.join("; "))
+        } else {
+            String::new()
+        };
+        rows.push(vec![
+            p.row.to_string(),
+            significant(p.x, 8),
+            significant(p.y, 8),
+            significant(p.residual, 4),
+            significant(p.studentized_residual, 3),
+            if p.leverage.is_finite() {
+                format!("{:.3}", p.leverage)
+            } else {
+                "-".into()
+            },
+            if p.cooks_distance.is_finite() {
+                format!("{:.3}", p.cooks_distance)
+            } else {
+                "-".into()
+            },
+            note,
+        ]);
+    }
+    out.push_str(&aligned(&rows));
+    if let Some(w) = &f.without_exclusions {
+        out.push_str(&format!(
+            "without the exclusions (rows {}): ",
+            f.excluded_rows
+                .iter()
+                .map(|r| r.to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
+        let parts: Vec<String> = w
+            .parameters
+            .iter()
+            .map(|p| {
+                format!(
+                    "{} = {} ± {}",
+                    p.name,
+                    significant(p.value, 8),
+                    significant(p.standard_uncertainty, 5)
+                )
+            })
+            .collect();
+        out.push_str(&parts.join(", "));
+        out.push_str(&format!(
+            ", residual sd {}\n",
+            significant(w.residual_standard_deviation, 5)
+        ));
+    }
+    out
+}
+
 /// Lines stating a Monte Carlo result next to the first-order one.
 fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -> Vec<String> {
     let unit = unit_suffix(r);
@@ -332,6 +476,16 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
         out.push('\n');
         out.push_str(&"=".repeat(t.chars().count()));
         out.push_str("\n\n");
+    }
+    for f in &report.fits {
+        out.push_str(&fit_text(
+            &format!(
+                "least-squares fit `{}`: {} against {} from {}",
+                f.name, f.y, f.x, f.data
+            ),
+            &f.result,
+        ));
+        out.push('\n');
     }
     for r in &report.results {
         out.push_str(&format!(

@@ -113,6 +113,16 @@ struct Doc<'a> {
 }
 
 impl Doc<'_> {
+    /// The folder data files are relative to: the model file's own.
+    fn dir(&self) -> std::path::PathBuf {
+        Path::new(self.file)
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_default()
+    }
+}
+
+impl Doc<'_> {
     fn line_col(&self, offset: usize) -> (usize, usize) {
         let offset = offset.min(self.src.len());
         let before = &self.src[..offset];
@@ -257,6 +267,20 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
             ));
         }
         Ok(Some(num))
+    }
+
+    fn boolean(&mut self, key: &str) -> Result<Option<bool>> {
+        let Some(v) = self.get(key) else {
+            return Ok(None);
+        };
+        match v.get_ref() {
+            DeValue::Boolean(b) => Ok(Some(*b)),
+            other => Err(self.err(
+                v.span(),
+                key,
+                format!("expected true or false, found {}", type_name(other)),
+            )),
+        }
     }
 
     fn string(&mut self, key: &str) -> Result<Option<(String, Range<usize>)>> {
@@ -410,9 +434,23 @@ const TOP_KEYS: &[&str] = &[
     "coverage_probability",
     "effective_dof_rounding",
     "inputs",
+    "fits",
     "correlations",
     "observed_together",
     "measurands",
+];
+
+const FIT_KEYS: &[&str] = &[
+    "data",
+    "x",
+    "y",
+    "y_uncertainty",
+    "x_uncertainty",
+    "degree",
+    "exclude",
+    "exclude_reason",
+    "scale_by_chi_squared",
+    "description",
 ];
 
 const INPUT_KEYS: &[&str] = &[
@@ -437,6 +475,8 @@ const INPUT_KEYS: &[&str] = &[
     "description",
     "unit",
     "sensitivity",
+    "fit",
+    "parameter",
 ];
 
 const MEASURAND_KEYS: &[&str] = &[
@@ -527,6 +567,8 @@ impl Loader<'_> {
             },
         };
 
+        let fits = self.fits(top)?;
+
         // Inputs.
         let mut inputs: Vec<Input> = Vec::new();
         let mut pending: Vec<PendingSensitivity> = Vec::new();
@@ -556,7 +598,7 @@ impl Loader<'_> {
                     ));
                 };
                 let mut r = Reader::new(doc, &path, it, val.span());
-                let input = self.input(&name, &mut r, doc.line(&k.span()))?;
+                let input = self.input(&name, &mut r, doc.line(&k.span()), &fits)?;
                 if let Some(s) = r.get("sensitivity") {
                     self.collect_sensitivity(inputs.len(), s, &path, &mut pending)?;
                 }
@@ -565,8 +607,56 @@ impl Loader<'_> {
             }
         }
 
-        // Inputs observed together: their covariance from the data.
+        // Parameters of one fit are correlated through its covariance.
         let mut correlations: Vec<Correlation> = Vec::new();
+        for i in 0..inputs.len() {
+            let Evaluation::Fit {
+                fit: fi,
+                parameter: pi,
+            } = &inputs[i].evaluation
+            else {
+                continue;
+            };
+            for j in i + 1..inputs.len() {
+                let Evaluation::Fit {
+                    fit: fj,
+                    parameter: pj,
+                } = &inputs[j].evaluation
+                else {
+                    continue;
+                };
+                if fi != fj {
+                    continue;
+                }
+                if pi == pj {
+                    return Err(doc.error(
+                        top.span_of("inputs"),
+                        &format!("inputs.{}", inputs[j].name),
+                        format!(
+                            "`{}` and `{}` are both parameter `{pi}` of fit `{fi}`; name each parameter once",
+                            inputs[i].name, inputs[j].name
+                        ),
+                    ));
+                }
+                let f = fits
+                    .iter()
+                    .find(|f| &f.name == fi)
+                    .expect("checked when the input was read");
+                let (a, b) = (
+                    f.result.parameter(pi).expect("checked"),
+                    f.result.parameter(pj).expect("checked"),
+                );
+                correlations.push(Correlation {
+                    a: i,
+                    b: j,
+                    coefficient: f.result.correlation[a][b],
+                    from_observations: true,
+                    from_fit: Some(fi.clone()),
+                });
+            }
+        }
+
+        // Inputs observed together: their covariance from the data.
         let index_of = |inputs: &[Input], name: &str| inputs.iter().position(|i| i.name == name);
         if let Some((groups, _)) = top.array("observed_together")? {
             let mut grouped: HashMap<usize, usize> = HashMap::new();
@@ -654,6 +744,7 @@ impl Loader<'_> {
                             b: j,
                             coefficient: r,
                             from_observations: true,
+                            from_fit: None,
                         });
                     }
                 }
@@ -732,6 +823,7 @@ impl Loader<'_> {
                     b: idx[1],
                     coefficient: coef.value,
                     from_observations: false,
+                    from_fit: None,
                 });
             }
         }
@@ -811,7 +903,158 @@ impl Loader<'_> {
             inputs,
             correlations,
             measurands,
+            fits,
         })
+    }
+
+    fn fits(&self, top: &mut Reader) -> Result<Vec<NamedFit>> {
+        let doc = self.doc;
+        let mut out = Vec::new();
+        let Some(v) = top.get("fits") else {
+            return Ok(out);
+        };
+        let DeValue::Table(t) = v.get_ref() else {
+            return Err(top.err(
+                v.span(),
+                "fits",
+                format!("expected a table of fits, found {}", type_name(v.get_ref())),
+            ));
+        };
+        for (k, val) in t.iter() {
+            let name = k.get_ref().to_string();
+            let path = format!("fits.{name}");
+            let DeValue::Table(ft) = val.get_ref() else {
+                return Err(doc.error(val.span(), &path, "expected a table describing the fit"));
+            };
+            let mut r = Reader::new(doc, &path, ft, val.span());
+            let data = r.string("data")?;
+            let degree = match r.number("degree")? {
+                None => 1,
+                Some(n) => {
+                    if n.value.fract() != 0.0 || !(0.0..=20.0).contains(&n.value) {
+                        return Err(r.err(
+                            n.span,
+                            "degree",
+                            format!("degree is a whole number from 0 to 20, found {}", n.text),
+                        ));
+                    }
+                    n.value as usize
+                }
+            };
+            let exclude: Vec<usize> = match r.numbers("exclude")? {
+                None => Vec::new(),
+                Some((v, span)) => {
+                    if let Some(bad) = v.iter().find(|x| x.fract() != 0.0 || **x < 1.0) {
+                        return Err(r.err(
+                            span,
+                            "exclude",
+                            format!("exclude lists 1-based data rows, found {bad}"),
+                        ));
+                    }
+                    v.iter().map(|x| *x as usize).collect()
+                }
+            };
+            let exclude_reason = r.string("exclude_reason")?.map(|x| x.0);
+            if !exclude.is_empty() && exclude_reason.is_none() {
+                return Err(r.err(
+                    r.span_of("exclude"),
+                    "exclude_reason",
+                    "give exclude_reason: every exclusion is recorded with its reason",
+                ));
+            }
+            let scale = r.boolean("scale_by_chi_squared")?.unwrap_or(false);
+            let _ = r.string("description")?;
+            let (x, y, uy, ux, rows, source, xname, yname) = match data {
+                Some((file, fspan)) => {
+                    let mut names = Vec::new();
+                    let col = |key: &str, req: bool, r: &mut Reader| -> Result<Option<String>> {
+                        match r.string(key)? {
+                            Some((c, _)) => Ok(Some(c)),
+                            None if req => Err(r.err(
+                                r.span.clone(),
+                                key,
+                                format!("give {key} = \"COLUMN\", a column of {file}"),
+                            )),
+                            None => Ok(None),
+                        }
+                    };
+                    let xc = col("x", true, &mut r)?.expect("required");
+                    let yc = col("y", true, &mut r)?.expect("required");
+                    let uyc = col("y_uncertainty", false, &mut r)?;
+                    let uxc = col("x_uncertainty", false, &mut r)?;
+                    names.push(xc.clone());
+                    names.push(yc.clone());
+                    names.extend(uyc.iter().cloned());
+                    names.extend(uxc.iter().cloned());
+                    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+                    let p = doc.dir().join(&file);
+                    let cols = incertus_fit::read_columns(&p, &refs)
+                        .map_err(|e| r.err(fspan.clone(), "data", e.0))?;
+                    let mut it = cols.columns.into_iter();
+                    let x = it.next().expect("x column");
+                    let y = it.next().expect("y column");
+                    let uy = uyc.as_ref().map(|_| it.next().expect("u(y) column"));
+                    let ux = uxc.as_ref().map(|_| it.next().expect("u(x) column"));
+                    (x, y, uy, ux, cols.rows, p.display().to_string(), xc, yc)
+                }
+                None => {
+                    let need = |r: &mut Reader, key: &str| -> Result<Vec<f64>> {
+                        r.numbers(key)?.map(|x| x.0).ok_or_else(|| {
+                            r.err(r.span.clone(), key, format!("give data = \"FILE.csv\" with column names, or {key} = [numbers]"))
+                        })
+                    };
+                    let x = need(&mut r, "x")?;
+                    let y = need(&mut r, "y")?;
+                    let uy = r.numbers("y_uncertainty")?.map(|x| x.0);
+                    let ux = r.numbers("x_uncertainty")?.map(|x| x.0);
+                    let n = x.len();
+                    for (key, len) in [
+                        ("y", y.len()),
+                        ("y_uncertainty", uy.as_ref().map_or(n, Vec::len)),
+                        ("x_uncertainty", ux.as_ref().map_or(n, Vec::len)),
+                    ] {
+                        if len != n {
+                            return Err(r.err(
+                                r.span_of(key),
+                                key,
+                                format!("{key} has {len} values but x has {n}"),
+                            ));
+                        }
+                    }
+                    (
+                        x,
+                        y,
+                        uy,
+                        ux,
+                        (1..=n).collect(),
+                        "inline".to_string(),
+                        "x".to_string(),
+                        "y".to_string(),
+                    )
+                }
+            };
+            r.finish(FIT_KEYS)?;
+            let result = incertus_fit::fit(&incertus_fit::FitRequest {
+                x: &x,
+                y: &y,
+                u_y: uy.as_deref(),
+                u_x: ux.as_deref(),
+                rows,
+                degree,
+                exclude,
+                exclude_reason,
+                scale_by_chi_squared: scale,
+            })
+            .map_err(|e| doc.error(k.span(), &path, e.0))?;
+            out.push(NamedFit {
+                name,
+                data: source,
+                x: xname,
+                y: yname,
+                result,
+            });
+        }
+        Ok(out)
     }
 
     fn formula_error(
@@ -879,7 +1122,7 @@ impl Loader<'_> {
         Ok(())
     }
 
-    fn input(&self, name: &str, r: &mut Reader, line: usize) -> Result<Input> {
+    fn input(&self, name: &str, r: &mut Reader, line: usize, fits: &[NamedFit]) -> Result<Input> {
         let value = r.number("value")?;
         let su = r.number("standard_uncertainty")?;
         let eu = r.number("expanded_uncertainty")?;
@@ -898,6 +1141,8 @@ impl Loader<'_> {
         let pooled = r.number("pooled_standard_deviation")?;
         let pooled_dof = r.number("pooled_dof")?;
         let constant = r.string("constant")?;
+        let fit_ref = r.string("fit")?;
+        let parameter = r.string("parameter")?;
         let description = r.string("description")?.map(|x| x.0);
         let unit = r.string("unit")?.map(|x| x.0);
 
@@ -926,6 +1171,9 @@ impl Loader<'_> {
         }
         if let Some((_, s)) = &constant {
             ways.push(("constant", s.clone()));
+        }
+        if let Some((_, s)) = &fit_ref {
+            ways.push(("fit", s.clone()));
         }
         if ways.len() > 1 {
             let (line2, _) = self.doc.line_col(ways[1].1.start);
@@ -1054,6 +1302,79 @@ impl Loader<'_> {
         positive(&shape, "shape", false)?;
         positive(&scale, "scale", false)?;
 
+        if let (None, Some((_, ps))) = (&fit_ref, &parameter) {
+            return Err(r.err(
+                ps.clone(),
+                "parameter",
+                "parameter goes with fit = \"NAME\"",
+            ));
+        }
+        if let Some((fname, fspan)) = fit_ref {
+            let Some(f) = fits.iter().find(|f| f.name == fname) else {
+                let mut msg = format!("no fit named `{fname}` in [fits]");
+                if let Some(c) = closest(&fname, fits.iter().map(|f| f.name.as_str())) {
+                    msg.push_str(&format!("; did you mean `{c}`?"));
+                }
+                return Err(r.err(fspan, "fit", msg));
+            };
+            let names: Vec<&str> = f
+                .result
+                .parameters
+                .iter()
+                .map(|p| p.name.as_str())
+                .collect();
+            let Some((pname, pspan)) = parameter else {
+                return Err(r.err(
+                    fspan,
+                    "parameter",
+                    format!(
+                        "give parameter = one of {} (the parameters of fit `{fname}`)",
+                        names.join(", ")
+                    ),
+                ));
+            };
+            let Some(k) = f.result.parameter(&pname) else {
+                return Err(r.err(
+                    pspan,
+                    "parameter",
+                    format!(
+                        "fit `{fname}` has no parameter `{pname}`; its parameters are {}",
+                        names.join(", ")
+                    ),
+                ));
+            };
+            for (key, n) in [
+                ("value", &value),
+                ("dof", &dof),
+                ("relative_reliability", &rr),
+            ] {
+                forbid(
+                    n,
+                    key,
+                    "a fitted parameter takes its value, uncertainty and dof from the fit",
+                )?;
+            }
+            if dist.is_some() {
+                return Err(bad_dist(
+                    "a fitted parameter takes its distribution from the fit",
+                ));
+            }
+            let res = &f.result;
+            let known_u = res.chi_squared.is_some() && !res.scaled_by_chi_squared;
+            input.estimate = res.parameters[k].value;
+            input.standard_uncertainty = res.parameters[k].standard_uncertainty;
+            input.dof = if known_u { None } else { Some(res.dof as f64) };
+            input.distribution = if known_u {
+                Distribution::Normal
+            } else {
+                Distribution::StudentT
+            };
+            input.evaluation = Evaluation::Fit {
+                fit: fname,
+                parameter: pname,
+            };
+            return Ok(input);
+        }
         if let Some((cname, cspan)) = constant {
             let Some(c) = constants::find(&cname) else {
                 let names: Vec<&str> = constants::TABLE.iter().map(|c| c.name).collect();

@@ -24,6 +24,9 @@ pub enum Evaluation {
     Exact,
     /// A tabulated physical constant.
     Constant { table: &'static str },
+    /// A parameter of a least-squares fit (its dof are the fit's residual
+    /// dof; parameters of one fit are correlated).
+    Fit { fit: String, parameter: String },
 }
 
 /// The probability distribution assigned to an input (used by the budget's
@@ -166,9 +169,11 @@ pub struct Correlation {
     pub a: usize,
     pub b: usize,
     pub coefficient: f64,
-    /// Whether it was computed from observations taken together
-    /// (JCGM 100:2008, 5.2.3) rather than stated.
+    /// Whether it was computed from data (observations taken together,
+    /// JCGM 100:2008, 5.2.3, or a fit) rather than stated.
     pub from_observations: bool,
+    /// The fit it comes from, if any.
+    pub from_fit: Option<String>,
 }
 
 /// One measurand (output quantity).
@@ -204,6 +209,19 @@ pub struct Model {
     pub correlations: Vec<Correlation>,
     /// In dependency order: a measurand comes after those it uses.
     pub measurands: Vec<Measurand>,
+    /// Least-squares fits whose parameters are inputs.
+    pub fits: Vec<NamedFit>,
+}
+
+/// A fit of the model file with its name and data source.
+#[derive(Clone, Debug, serde::Serialize)]
+pub struct NamedFit {
+    pub name: String,
+    /// The CSV file, or "inline" for arrays in the model file.
+    pub data: String,
+    pub x: String,
+    pub y: String,
+    pub result: incertus_fit::FitResult,
 }
 
 impl Model {

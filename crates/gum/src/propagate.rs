@@ -78,6 +78,7 @@ pub struct CorrelationLine {
     pub term: f64,
     pub share: f64,
     pub from_observations: bool,
+    pub from_fit: Option<String>,
 }
 
 /// The result for one measurand.
@@ -117,6 +118,7 @@ pub struct NamedMatrix {
 #[derive(Clone, Debug, Serialize)]
 pub struct Report {
     pub title: Option<String>,
+    pub fits: Vec<crate::model::NamedFit>,
     pub results: Vec<MeasurandResult>,
     pub correlation_matrix: NamedMatrix,
     pub covariance_matrix: NamedMatrix,
@@ -170,6 +172,7 @@ fn label(model: &Model, i: usize) -> (String, Option<usize>) {
         Evaluation::TypeB => ("B".into(), None),
         Evaluation::Exact => ("exact".into(), None),
         Evaluation::Constant { .. } => ("constant".into(), None),
+        Evaluation::Fit { .. } => ("fit".into(), None),
     }
 }
 
@@ -405,6 +408,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 term: t * s * s,
                 share: share(*t),
                 from_observations: cor.from_observations,
+                from_fit: cor.from_fit.clone(),
             })
             .collect();
         results.push(MeasurandResult {
@@ -471,6 +475,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     let names: Vec<String> = results.iter().map(|r| r.name.clone()).collect();
     Ok(Report {
         title: model.title.clone(),
+        fits: model.fits.clone(),
         results,
         correlation_matrix: NamedMatrix {
             names: names.clone(),

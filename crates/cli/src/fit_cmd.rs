@@ -1,0 +1,121 @@
+//! `incertus fit`: a least-squares fit of columns of a CSV file.
+
+use std::io::Write;
+use std::path::PathBuf;
+
+use clap::{Args, ValueEnum};
+use incertus_fit::{fit, read_columns, FitRequest};
+
+use crate::Failure;
+
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum FitFormat {
+    Text,
+    Json,
+    Csv,
+}
+
+#[derive(Args, Debug)]
+pub struct FitArgs {
+    /// The data file (CSV with a header line)
+    file: PathBuf,
+    /// Column of the abscissa
+    #[arg(long, value_name = "COLUMN")]
+    x: String,
+    /// Column of the ordinate
+    #[arg(long, value_name = "COLUMN")]
+    y: String,
+    /// Column of the standard uncertainties of y (weighted fit)
+    #[arg(long, value_name = "COLUMN")]
+    y_uncertainty: Option<String>,
+    /// Column of the standard uncertainties of x (York's method; needs --y-uncertainty)
+    #[arg(long, value_name = "COLUMN")]
+    x_uncertainty: Option<String>,
+    /// Degree of the polynomial
+    #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u32).range(0..=20))]
+    degree: u32,
+    /// Data rows to exclude (1-based, the first row after the header is 1), e.g. 4,7
+    #[arg(long, value_name = "ROWS", value_delimiter = ',')]
+    exclude: Vec<usize>,
+    /// Why the rows are excluded (recorded in the report; required with --exclude)
+    #[arg(long, value_name = "TEXT")]
+    exclude_reason: Option<String>,
+    /// For a weighted fit, multiply the covariance by χ²/ν (the stated u(y) are then relative only)
+    #[arg(long)]
+    scale_by_chi_squared: bool,
+    /// Output format
+    #[arg(long, value_enum, default_value_t = FitFormat::Text)]
+    format: FitFormat,
+}
+
+pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
+    if !a.exclude.is_empty() && a.exclude_reason.is_none() {
+        return Err(Failure::input(
+            "give --exclude-reason with --exclude: every exclusion is recorded with its reason",
+        ));
+    }
+    let mut names = vec![a.x.as_str(), a.y.as_str()];
+    if let Some(u) = &a.y_uncertainty {
+        names.push(u);
+    }
+    if let Some(u) = &a.x_uncertainty {
+        names.push(u);
+    }
+    let cols = read_columns(&a.file, &names).map_err(|e| Failure::input(e.0))?;
+    let uy = a.y_uncertainty.as_ref().map(|_| cols.columns[2].as_slice());
+    let ux = a
+        .x_uncertainty
+        .as_ref()
+        .map(|_| cols.columns[if a.y_uncertainty.is_some() { 3 } else { 2 }].as_slice());
+    let result = fit(&FitRequest {
+        x: &cols.columns[0],
+        y: &cols.columns[1],
+        u_y: uy,
+        u_x: ux,
+        rows: cols.rows.clone(),
+        degree: a.degree as usize,
+        exclude: a.exclude.clone(),
+        exclude_reason: a.exclude_reason.clone(),
+        scale_by_chi_squared: a.scale_by_chi_squared,
+    })
+    .map_err(|e| Failure::input(format!("{}: {}", a.file.display(), e.0)))?;
+    let text = match a.format {
+        FitFormat::Text => crate::report::fit_text(
+            &format!(
+                "least-squares fit of {} against {} from {}",
+                a.y,
+                a.x,
+                a.file.display()
+            ),
+            &result,
+        ),
+        FitFormat::Json => {
+            let mut s = serde_json::to_string_pretty(&result).expect("plain data");
+            s.push('\n');
+            s
+        }
+        FitFormat::Csv => {
+            let mut s = String::from(
+                "row,x,y,residual,standardized_residual,studentized_residual,leverage,cooks_distance,flagged,excluded\n",
+            );
+            for p in &result.points {
+                s.push_str(&format!(
+                    "{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{}\n",
+                    p.row,
+                    p.x,
+                    p.y,
+                    p.residual,
+                    p.standardized_residual,
+                    p.studentized_residual,
+                    p.leverage,
+                    p.cooks_distance,
+                    p.flagged,
+                    p.excluded
+                ));
+            }
+            s
+        }
+    };
+    let _ = out.write_all(text.as_bytes());
+    Ok(())
+}
