@@ -77,6 +77,7 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
         exclude: a.exclude.clone(),
         exclude_reason: a.exclude_reason.clone(),
         scale_by_chi_squared: a.scale_by_chi_squared,
+        diagnostics: true,
     })
     .map_err(|e| Failure::input(format!("{}: {}", a.file.display(), e.0)))?;
     let text = match a.format {

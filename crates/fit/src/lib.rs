@@ -102,6 +102,10 @@ pub struct FitRequest<'a> {
     pub exclude_reason: Option<String>,
     /// For weighted fits: multiply the covariance by χ²/ν.
     pub scale_by_chi_squared: bool,
+    /// Compute the per-point diagnostics (leverage, residuals, Cook's
+    /// distance, flags). Without them a fit of 10⁶ points skips forming Q
+    /// and a million point records; `points` is then empty.
+    pub diagnostics: bool,
 }
 
 /// Names of polynomial coefficients: intercept and slope for a straight
@@ -156,13 +160,14 @@ pub fn fit(req: &FitRequest) -> Result<FitResult, FitError> {
                 }
                 fit_york(x, y, &ux, &uy, &rows, req.scale_by_chi_squared)
             } else {
-                fit_polynomial(
+                linear::polynomial(
                     x,
                     y,
                     uy.as_deref(),
                     &rows,
                     req.degree,
                     req.scale_by_chi_squared,
+                    req.diagnostics,
                 )
             }
         };

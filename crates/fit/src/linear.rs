@@ -15,15 +15,26 @@ struct Solution {
     /// (XᵀWX)⁻¹.
     unscaled_cov: Vec<Vec<f64>>,
     leverage: Vec<f64>,
+    /// Σ w_i (y_i − ŷ_i)², from the part of Qᵀb beyond the first p entries.
+    rss: f64,
 }
 
-fn solve(x: &DMatrix<f64>, y: &[f64], w: Option<&[f64]>) -> Result<Solution, FitError> {
-    let (n, p) = x.shape();
-    let sw: Vec<f64> = (0..n).map(|i| w.map_or(1.0, |w| w[i].sqrt())).collect();
-    let mut a = x.clone();
-    for i in 0..n {
-        for j in 0..p {
-            a[(i, j)] *= sw[i];
+/// Least squares for the design `a` (consumed: scaled in place).
+fn solve(
+    mut a: DMatrix<f64>,
+    y: &[f64],
+    w: Option<&[f64]>,
+    want_leverage: bool,
+) -> Result<Solution, FitError> {
+    let (n, p) = a.shape();
+    let mut b = DVector::from_column_slice(y);
+    if let Some(w) = w {
+        for i in 0..n {
+            let sw = w[i].sqrt();
+            b[i] *= sw;
+            for j in 0..p {
+                a[(i, j)] *= sw;
+            }
         }
     }
     let scale: Vec<f64> = (0..p).map(|j| a.column(j).norm()).collect();
@@ -36,9 +47,7 @@ fn solve(x: &DMatrix<f64>, y: &[f64], w: Option<&[f64]>) -> Result<Solution, Fit
     for (j, s) in scale.iter().enumerate() {
         a.column_mut(j).scale_mut(1.0 / s);
     }
-    let b = DVector::from_iterator(n, (0..n).map(|i| y[i] * sw[i]));
     let qr = a.qr();
-    let q = qr.q();
     let r = qr.r();
     // A rank-deficient design has a (near) zero on R's diagonal.
     let rmax = (0..p).map(|j| r[(j, j)].abs()).fold(0.0, f64::max);
@@ -48,7 +57,9 @@ fn solve(x: &DMatrix<f64>, y: &[f64], w: Option<&[f64]>) -> Result<Solution, Fit
             j + 1
         )));
     }
-    let qtb = q.transpose() * &b;
+    qr.q_tr_mul(&mut b);
+    let rss = b.rows(p, n - p).norm_squared();
+    let qtb = b.rows(0, p).into_owned();
     let beta_s = r
         .solve_upper_triangular(&qtb)
         .ok_or_else(|| FitError("the least-squares system is singular".into()))?;
@@ -60,53 +71,60 @@ fn solve(x: &DMatrix<f64>, y: &[f64], w: Option<&[f64]>) -> Result<Solution, Fit
     let unscaled_cov = (0..p)
         .map(|i| (0..p).map(|j| cs[(i, j)] / (scale[i] * scale[j])).collect())
         .collect();
-    let leverage = (0..n).map(|i| q.row(i).norm_squared()).collect();
+    // Leverage h_i = ‖row i of the thin Q‖² (only when diagnostics are wanted).
+    let leverage = if want_leverage {
+        let q = qr.q();
+        (0..n).map(|i| q.row(i).norm_squared()).collect()
+    } else {
+        Vec::new()
+    };
     Ok(Solution {
         beta,
         unscaled_cov,
         leverage,
+        rss,
     })
 }
 
-/// Assemble the result from a solution of the design `x` (not yet mapped).
+/// Assemble the result. `fitted(i)` is ŷ_i, used only for the diagnostics.
 #[allow(clippy::too_many_arguments)]
 fn finish(
     names: Vec<String>,
     beta: Vec<f64>,
-    unscaled_cov: Vec<Vec<f64>>,
-    leverage: Vec<f64>,
-    fitted: Vec<f64>,
+    sol_cov: Vec<Vec<f64>>,
+    sol: &Solution,
+    fitted: &dyn Fn(usize) -> f64,
     xs: &[f64],
     y: &[f64],
     u_y: Option<&[f64]>,
     rows: &[usize],
     scale_by_chi2: bool,
+    diagnostics: bool,
 ) -> FitResult {
     let n = y.len();
     let p = beta.len();
     let nu = n - p;
-    let w: Vec<f64> = (0..n)
-        .map(|i| u_y.map_or(1.0, |u| 1.0 / (u[i] * u[i])))
-        .collect();
-    let resid: Vec<f64> = (0..n).map(|i| y[i] - fitted[i]).collect();
-    let rss: f64 = (0..n).map(|i| w[i] * resid[i] * resid[i]).sum();
+    let w = |i: usize| u_y.map_or(1.0, |u| 1.0 / (u[i] * u[i]));
+    let rss = sol.rss;
     let s2 = rss / nu as f64;
     let weighted = u_y.is_some();
     let factor = if !weighted || scale_by_chi2 { s2 } else { 1.0 };
-    let cov: Vec<Vec<f64>> = unscaled_cov
+    let cov: Vec<Vec<f64>> = sol_cov
         .iter()
         .map(|row| row.iter().map(|v| v * factor).collect())
         .collect();
-    let wsum: f64 = w.iter().sum();
-    let ybar = (0..n).map(|i| w[i] * y[i]).sum::<f64>() / wsum;
-    let tss: f64 = (0..n).map(|i| w[i] * (y[i] - ybar).powi(2)).sum();
+    let wsum: f64 = (0..n).map(w).sum();
+    let ybar = (0..n).map(|i| w(i) * y[i]).sum::<f64>() / wsum;
+    let tss: f64 = (0..n).map(|i| w(i) * (y[i] - ybar).powi(2)).sum();
     // Residual scale of the diagnostics: s for unweighted or scaled fits,
     // 1 for weighted fits whose u(y) are taken as known.
     let sd = factor.sqrt();
-    let points = (0..n)
+    let leverage = &sol.leverage;
+    let points = (0..if diagnostics { n } else { 0 })
         .map(|i| {
+            let resid = y[i] - fitted(i);
             let h = leverage[i].min(1.0 - 1e-15);
-            let r = w[i].sqrt() * resid[i];
+            let r = w(i).sqrt() * resid;
             let standardized = r / (sd * (1.0 - h).sqrt());
             let s_i2 = if nu > 1 {
                 ((nu as f64) * factor - r * r / (1.0 - h)) / (nu as f64 - 1.0)
@@ -123,7 +141,7 @@ fn finish(
                 row: rows[i],
                 x: xs[i],
                 y: y[i],
-                residual: resid[i],
+                residual: resid,
                 standardized_residual: standardized,
                 studentized_residual: studentized,
                 leverage: leverage[i],
@@ -203,7 +221,8 @@ fn check_u(u_y: Option<&[f64]>) -> Result<(), FitError> {
     Ok(())
 }
 
-/// Fit y = c0 + c1 x + ... + c_d x^d (ordinary, or weighted when `u_y`).
+/// Fit y = c0 + c1 x + ... + c_d x^d (ordinary, or weighted when `u_y`),
+/// with the per-point diagnostics.
 pub fn fit_polynomial(
     x: &[f64],
     y: &[f64],
@@ -212,6 +231,18 @@ pub fn fit_polynomial(
     degree: usize,
     scale_by_chi2: bool,
 ) -> Result<FitResult, FitError> {
+    polynomial(x, y, u_y, rows, degree, scale_by_chi2, true)
+}
+
+pub(crate) fn polynomial(
+    x: &[f64],
+    y: &[f64],
+    u_y: Option<&[f64]>,
+    rows: &[usize],
+    degree: usize,
+    scale_by_chi2: bool,
+    diagnostics: bool,
+) -> Result<FitResult, FitError> {
     let n = x.len();
     let p = degree + 1;
     check_size(n, p)?;
@@ -219,13 +250,12 @@ pub fn fit_polynomial(
     let c = x.iter().sum::<f64>() / n as f64;
     let s = x.iter().map(|v| (v - c).abs()).fold(0.0, f64::max);
     let s = if s > 0.0 { s } else { 1.0 };
-    let t: Vec<f64> = x.iter().map(|v| (v - c) / s).collect();
-    let design = DMatrix::from_fn(n, p, |i, j| t[i].powi(j as i32));
+    let design = DMatrix::from_fn(n, p, |i, j| ((x[i] - c) / s).powi(j as i32));
     let w: Option<Vec<f64>> = u_y.map(|u| u.iter().map(|v| 1.0 / (v * v)).collect());
-    let sol = solve(&design, y, w.as_deref())?;
+    let sol = solve(design, y, w.as_deref(), diagnostics)?;
     // Map β (in t) to coefficients of x: a_j = Σ_k C(k, j) (−c)^(k−j) s^(−k) β_k.
     let mut m = vec![vec![0.0; p]; p];
-    for (k, _) in sol.beta.iter().enumerate() {
+    for k in 0..p {
         for (j, row) in m.iter_mut().enumerate().take(k + 1) {
             row[k] = binomial(k, j) * (-c).powi((k - j) as i32) / s.powi(k as i32);
         }
@@ -246,21 +276,23 @@ pub fn fit_polynomial(
         })
         .collect();
     // Fitted values from the well-conditioned form.
-    let fitted: Vec<f64> = t
-        .iter()
-        .map(|&tv| sol.beta.iter().rev().fold(0.0, |acc, b| acc * tv + b))
-        .collect();
+    let beta_t = sol.beta.clone();
+    let fitted = move |i: usize| {
+        let tv = (x[i] - c) / s;
+        beta_t.iter().rev().fold(0.0, |acc, b| acc * tv + b)
+    };
     Ok(finish(
         coefficient_names(degree),
         a,
         va,
-        sol.leverage,
-        fitted,
+        &sol,
+        &fitted,
         x,
         y,
         u_y,
         rows,
         scale_by_chi2,
+        diagnostics,
     ))
 }
 
@@ -281,21 +313,22 @@ pub fn fit_basis(
     check_u(u_y)?;
     let design = DMatrix::from_fn(n, p, |i, j| columns[j][i]);
     let w: Option<Vec<f64>> = u_y.map(|u| u.iter().map(|v| 1.0 / (v * v)).collect());
-    let sol = solve(&design, y, w.as_deref())?;
-    let fitted: Vec<f64> = (0..n)
-        .map(|i| (0..p).map(|j| columns[j][i] * sol.beta[j]).sum())
-        .collect();
+    let sol = solve(design, y, w.as_deref(), true)?;
+    let beta = sol.beta.clone();
+    let fitted = |i: usize| (0..p).map(|j| columns[j][i] * beta[j]).sum::<f64>();
+    let cov = sol.unscaled_cov.clone();
     Ok(finish(
         names,
-        sol.beta,
-        sol.unscaled_cov,
-        sol.leverage,
-        fitted,
+        sol.beta.clone(),
+        cov,
+        &sol,
+        &fitted,
         xs,
         y,
         u_y,
         rows,
         scale_by_chi2,
+        true,
     ))
 }
 

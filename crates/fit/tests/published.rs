@@ -13,6 +13,7 @@ fn request<'a>(x: &'a [f64], y: &'a [f64]) -> FitRequest<'a> {
         exclude: Vec::new(),
         exclude_reason: None,
         scale_by_chi_squared: false,
+        diagnostics: true,
     }
 }
 

@@ -40,6 +40,7 @@ fn polynomials_match_numpy_polyfit() {
             exclude: vec![],
             exclude_reason: None,
             scale_by_chi_squared: false,
+            diagnostics: true,
         })
         .unwrap();
         let name = case["name"].as_str().unwrap();
@@ -116,6 +117,7 @@ fn york_matches_orthogonal_distance_regression() {
         exclude: vec![],
         exclude_reason: None,
         scale_by_chi_squared: false,
+        diagnostics: true,
     })
     .unwrap();
     assert_eq!(r.method, "York");
@@ -156,6 +158,7 @@ fn exclusions_are_recorded_and_both_results_kept() {
         exclude,
         exclude_reason: Some("bubble in the cell".into()),
         scale_by_chi_squared: false,
+        diagnostics: true,
     };
     let all = fit(&req(vec![])).unwrap();
     assert!(all.points[4].flagged, "{:?}", all.points[4].flags);
@@ -196,6 +199,7 @@ fn inverse_prediction_uses_the_slope_intercept_covariance() {
         exclude: vec![],
         exclude_reason: None,
         scale_by_chi_squared: false,
+        diagnostics: true,
     })
     .unwrap();
     let (a, b) = (r.parameters[0].value, r.parameters[1].value);

@@ -1044,6 +1044,7 @@ impl Loader<'_> {
                 exclude,
                 exclude_reason,
                 scale_by_chi_squared: scale,
+                diagnostics: true,
             })
             .map_err(|e| doc.error(k.span(), &path, e.0))?;
             out.push(NamedFit {
