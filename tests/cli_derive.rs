@@ -1,18 +1,7 @@
 //! End-to-end tests of `incertus derive`, run through the built binary.
 
-use std::process::Command;
-
-fn incertus(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
-        .args(args)
-        .output()
-        .expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
+mod common;
+use common::incertus;
 
 /// Whether `out` has the line, ignoring the padding that aligns the `=`.
 fn has_line(out: &str, line: &str) -> bool {

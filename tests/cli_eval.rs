@@ -1,34 +1,8 @@
 //! End-to-end tests of `incertus eval` and `incertus check` through the
 //! built binary: the output contract, the formats, and bad input.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn incertus(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
-        .args(args)
-        .output()
-        .expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-/// A fresh directory for one test's files.
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("incertus-cli-eval-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-fn write(dir: &Path, file: &str, text: &str) -> PathBuf {
-    let p = dir.join(file);
-    std::fs::write(&p, text).unwrap();
-    p
-}
+mod common;
+use common::{incertus, scratch, write};
 
 const VESSEL: &str = "examples/models/vessel.toml";
 

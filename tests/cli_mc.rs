@@ -1,18 +1,7 @@
 //! End-to-end tests of `incertus eval --mc` through the built binary.
 
-use std::process::Command;
-
-fn incertus(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
-        .args(args)
-        .output()
-        .expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
+mod common;
+use common::incertus;
 
 const MODEL: &str = "examples/models/mc_five_inputs.toml";
 

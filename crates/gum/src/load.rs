@@ -371,6 +371,24 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
     }
 }
 
+/// A reader for an element of an array of tables (`[[correlations]]`, ...),
+/// or an error saying what the element should hold.
+fn item_reader<'d, 't, 'i>(
+    doc: &'d Doc<'d>,
+    item: &'t Spanned<DeValue<'i>>,
+    path: &str,
+    expected: &str,
+) -> Result<Reader<'d, 't, 'i>> {
+    match item.get_ref() {
+        DeValue::Table(t) => Ok(Reader::new(doc, path, t, item.span())),
+        _ => Err(doc.error(
+            item.span(),
+            path,
+            format!("expected a table with {expected}"),
+        )),
+    }
+}
+
 fn number_value(v: &Spanned<DeValue>) -> Option<Num> {
     let (value, text) = match v.get_ref() {
         DeValue::Integer(i) => {
@@ -662,14 +680,7 @@ impl Loader<'_> {
             let mut grouped: HashMap<usize, usize> = HashMap::new();
             for (g, item) in groups.iter().enumerate() {
                 let path = format!("observed_together[{g}]");
-                let DeValue::Table(t) = item.get_ref() else {
-                    return Err(doc.error(
-                        item.span(),
-                        &path,
-                        "expected a table with `inputs = [...]`",
-                    ));
-                };
-                let mut r = Reader::new(doc, &path, t, item.span());
+                let mut r = item_reader(doc, item, &path, "`inputs = [...]`")?;
                 let Some((names, span)) = r.names("inputs")? else {
                     return Err(doc.error(
                         item.span(),
@@ -755,14 +766,12 @@ impl Loader<'_> {
         if let Some((items, _)) = top.array("correlations")? {
             for (c, item) in items.iter().enumerate() {
                 let path = format!("correlations[{c}]");
-                let DeValue::Table(t) = item.get_ref() else {
-                    return Err(doc.error(
-                        item.span(),
-                        &path,
-                        "expected a table with `inputs = [\"a\", \"b\"]` and `coefficient`",
-                    ));
-                };
-                let mut r = Reader::new(doc, &path, t, item.span());
+                let mut r = item_reader(
+                    doc,
+                    item,
+                    &path,
+                    "`inputs = [\"a\", \"b\"]` and `coefficient`",
+                )?;
                 let Some((names, span)) = r.names("inputs")? else {
                     return Err(doc.error(item.span(), &path, "missing `inputs = [\"a\", \"b\"]`"));
                 };
@@ -844,14 +853,7 @@ impl Loader<'_> {
         }
         for (m, item) in items.iter().enumerate() {
             let path = format!("measurands[{m}]");
-            let DeValue::Table(t) = item.get_ref() else {
-                return Err(doc.error(
-                    item.span(),
-                    &path,
-                    "expected a table with name and formula",
-                ));
-            };
-            let mut r = Reader::new(doc, &path, t, item.span());
+            let mut r = item_reader(doc, item, &path, "name and formula")?;
             let Some((name, nspan)) = r.string("name")? else {
                 return Err(doc.error(item.span(), &path, "missing `name`"));
             };

@@ -9,21 +9,8 @@ use rayon::prelude::*;
 
 const CHUNK: usize = 1 << 16;
 
-/// Neumaier-compensated sum.
-pub fn sum(xs: impl Iterator<Item = f64>) -> f64 {
-    let mut s = 0.0f64;
-    let mut c = 0.0f64;
-    for x in xs {
-        let t = s + x;
-        if s.abs() >= x.abs() {
-            c += (s - t) + x;
-        } else {
-            c += (x - t) + s;
-        }
-        s = t;
-    }
-    s + c
-}
+/// Neumaier-compensated sum (the one of the Type A evaluation).
+pub use incertus_gum::typea::sum;
 
 /// Mean of a block, summed as deviations from its first value in four
 /// interleaved accumulators: the shift removes any large offset, so the
@@ -68,7 +55,7 @@ fn chunked_sum(v: &[f64], f: impl Fn(f64) -> f64 + Sync) -> f64 {
         .par_chunks(CHUNK)
         .map(|c| sum(c.iter().map(|&x| f(x))))
         .collect();
-    sum(partial.into_iter())
+    sum(partial)
 }
 
 /// Mean of the trials (JCGM 101:2008, 7.6, eq. 12).
@@ -92,7 +79,7 @@ pub fn covariance(a: &[f64], b: &[f64], ma: f64, mb: f64) -> f64 {
         .zip(b.par_chunks(CHUNK))
         .map(|(x, y)| sum(x.iter().zip(y).map(|(p, q)| (p - ma) * (q - mb))))
         .collect();
-    sum(partial.into_iter()) / (a.len().max(2) - 1) as f64
+    sum(partial) / (a.len().max(2) - 1) as f64
 }
 
 /// q = pM if that is a whole number, else ⌊pM + ½⌋ (JCGM 101:2008, 7.7.1).

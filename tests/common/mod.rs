@@ -1,0 +1,33 @@
+//! Helpers shared by the end-to-end tests of the binary.
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+/// Run the built binary: exit code, standard output, standard error.
+pub fn incertus(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .args(args)
+        .output()
+        .expect("the binary runs");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+/// A fresh directory for one test's files.
+pub fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("incertus-test-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("the temporary directory is writable");
+    dir
+}
+
+/// Write a file into a scratch directory.
+pub fn write(dir: &Path, file: &str, text: &str) -> PathBuf {
+    let p = dir.join(file);
+    std::fs::write(&p, text).expect("the temporary directory is writable");
+    p
+}
