@@ -1,0 +1,505 @@
+//! Units and dimensions, parsed at run time: the seven base dimensions of
+//! the SI, the SI prefixes, the units with special names and the units
+//! accepted for use with the SI (SI Brochure, 9th edition, 2019, Tables 2,
+//! 4, 7 and 8), and a few laboratory units (debye, ångström, ppm, %).
+//! A unit is a factor to the coherent SI unit of its dimension, plus an
+//! offset for the degree Celsius.
+//!
+//! No well-kept crate parses unit text at run time with located errors (the
+//! established Rust unit crates check units at compile time), so this is a
+//! small module of our own.
+//!
+//! Grammar: factors separated by spaces, `*`, `·` or `/` (everything after
+//! a `/` divides, as in `J/(mol K)` or `J/mol/K`; parentheses group), each a
+//! symbol with an optional prefix and an optional integer or rational power:
+//! `kg m^-3`, `g/cm^3`, `(m^3)^(2/3)`, `m²`, `µm` or `um`, `degC` or `°C`.
+//! A rational power is accepted where the result is a whole dimension.
+//!
+//! Temperatures: a value in °C becomes K by adding 273.15; an uncertainty
+//! or a difference in °C is the same number in K (factor 1, no offset).
+
+use std::fmt;
+
+/// Exponents of the seven base dimensions: length, mass, time, electric
+/// current, thermodynamic temperature, amount of substance, luminous
+/// intensity (SI Brochure, 9th edition, 2.3.3).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
+pub struct Dimension(pub [i32; 7]);
+
+const BASE: [&str; 7] = ["m", "kg", "s", "A", "K", "mol", "cd"];
+
+impl Dimension {
+    pub const ONE: Dimension = Dimension([0; 7]);
+
+    pub fn is_one(&self) -> bool {
+        self.0 == [0; 7]
+    }
+
+    /// The dimension raised to n/d, if every exponent stays whole.
+    pub fn pow(self, n: i32, d: i32) -> Option<Dimension> {
+        let mut out = [0; 7];
+        for (o, x) in out.iter_mut().zip(self.0) {
+            let num = x * n;
+            if num % d != 0 {
+                return None;
+            }
+            *o = num / d;
+        }
+        Some(Dimension(out))
+    }
+}
+
+// Multiplying quantities adds the exponents of their dimensions.
+#[allow(clippy::suspicious_arithmetic_impl)]
+impl std::ops::Mul for Dimension {
+    type Output = Dimension;
+    fn mul(self, o: Dimension) -> Dimension {
+        let mut d = self.0;
+        for (x, y) in d.iter_mut().zip(o.0) {
+            *x += y;
+        }
+        Dimension(d)
+    }
+}
+
+#[allow(clippy::suspicious_arithmetic_impl)]
+impl std::ops::Div for Dimension {
+    type Output = Dimension;
+    fn div(self, o: Dimension) -> Dimension {
+        let mut d = self.0;
+        for (x, y) in d.iter_mut().zip(o.0) {
+            *x -= y;
+        }
+        Dimension(d)
+    }
+}
+
+impl fmt::Display for Dimension {
+    /// In coherent SI base units, e.g. `kg m^-3`, or `1`.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.is_one() {
+            return f.write_str("1");
+        }
+        let parts: Vec<String> = BASE
+            .iter()
+            .zip(self.0)
+            .filter(|(_, e)| *e != 0)
+            .map(|(s, e)| {
+                if e == 1 {
+                    s.to_string()
+                } else {
+                    format!("{s}^{e}")
+                }
+            })
+            .collect();
+        f.write_str(&parts.join(" "))
+    }
+}
+
+/// A unit: value in the unit × `factor` (+ `offset`) = value in coherent SI.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Unit {
+    pub text: String,
+    pub dimension: Dimension,
+    pub factor: f64,
+    /// Only the degree Celsius has one (273.15 K), and only alone.
+    pub offset: f64,
+}
+
+impl Unit {
+    /// A value in this unit, in coherent SI.
+    pub fn value_to_si(&self, v: f64) -> f64 {
+        v * self.factor + self.offset
+    }
+
+    /// A value in coherent SI, in this unit.
+    pub fn value_from_si(&self, v: f64) -> f64 {
+        (v - self.offset) / self.factor
+    }
+
+    /// An uncertainty or a difference: the factor only.
+    pub fn difference_to_si(&self, u: f64) -> f64 {
+        u * self.factor
+    }
+
+    pub fn difference_from_si(&self, u: f64) -> f64 {
+        u / self.factor
+    }
+
+    pub fn dimensionless() -> Unit {
+        Unit {
+            text: "1".into(),
+            dimension: Dimension::ONE,
+            factor: 1.0,
+            offset: 0.0,
+        }
+    }
+}
+
+/// A problem with a unit, at a byte offset of its text.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{message}")]
+pub struct UnitError {
+    pub message: String,
+    pub start: usize,
+    pub end: usize,
+}
+
+impl UnitError {
+    /// The message, the unit text and a caret line.
+    pub fn render(&self, text: &str) -> String {
+        let col = text[..self.start.min(text.len())].chars().count();
+        let width = text
+            .get(self.start..self.end.min(text.len()))
+            .map_or(1, |s| s.chars().count().max(1));
+        format!(
+            "{}\n{text}\n{}{}",
+            self.message,
+            " ".repeat(col),
+            "^".repeat(width)
+        )
+    }
+}
+
+const D_L: Dimension = Dimension([1, 0, 0, 0, 0, 0, 0]);
+const D_M: Dimension = Dimension([0, 1, 0, 0, 0, 0, 0]);
+const D_T: Dimension = Dimension([0, 0, 1, 0, 0, 0, 0]);
+const D_I: Dimension = Dimension([0, 0, 0, 1, 0, 0, 0]);
+const D_TH: Dimension = Dimension([0, 0, 0, 0, 1, 0, 0]);
+const D_N: Dimension = Dimension([0, 0, 0, 0, 0, 1, 0]);
+const D_J: Dimension = Dimension([0, 0, 0, 0, 0, 0, 1]);
+
+const fn dim(e: [i32; 7]) -> Dimension {
+    Dimension(e)
+}
+
+/// (symbol, dimension, factor to coherent SI, takes prefixes).
+/// SI Brochure, 9th edition: Table 2 (base units), Table 4 (special names),
+/// Table 8 (units accepted for use with the SI); the debye is 10⁻²¹/c C m
+/// (a CGS unit, common practice of dipole-moment work).
+const SYMBOLS: &[(&str, Dimension, f64, bool)] = &[
+    ("m", D_L, 1.0, true),
+    ("g", D_M, 1e-3, true),
+    ("s", D_T, 1.0, true),
+    ("A", D_I, 1.0, true),
+    ("K", D_TH, 1.0, true),
+    ("mol", D_N, 1.0, true),
+    ("cd", D_J, 1.0, true),
+    ("rad", Dimension::ONE, 1.0, true),
+    ("sr", Dimension::ONE, 1.0, true),
+    ("Hz", dim([0, 0, -1, 0, 0, 0, 0]), 1.0, true),
+    ("N", dim([1, 1, -2, 0, 0, 0, 0]), 1.0, true),
+    ("Pa", dim([-1, 1, -2, 0, 0, 0, 0]), 1.0, true),
+    ("J", dim([2, 1, -2, 0, 0, 0, 0]), 1.0, true),
+    ("W", dim([2, 1, -3, 0, 0, 0, 0]), 1.0, true),
+    ("C", dim([0, 0, 1, 1, 0, 0, 0]), 1.0, true),
+    ("V", dim([2, 1, -3, -1, 0, 0, 0]), 1.0, true),
+    ("F", dim([-2, -1, 4, 2, 0, 0, 0]), 1.0, true),
+    ("ohm", dim([2, 1, -3, -2, 0, 0, 0]), 1.0, true),
+    ("Ω", dim([2, 1, -3, -2, 0, 0, 0]), 1.0, true),
+    ("S", dim([-2, -1, 3, 2, 0, 0, 0]), 1.0, true),
+    ("Wb", dim([2, 1, -2, -1, 0, 0, 0]), 1.0, true),
+    ("T", dim([0, 1, -2, -1, 0, 0, 0]), 1.0, true),
+    ("H", dim([2, 1, -2, -2, 0, 0, 0]), 1.0, true),
+    ("lm", D_J, 1.0, true),
+    ("lx", dim([-2, 0, 0, 0, 0, 0, 1]), 1.0, true),
+    ("Bq", dim([0, 0, -1, 0, 0, 0, 0]), 1.0, true),
+    ("Gy", dim([2, 0, -2, 0, 0, 0, 0]), 1.0, true),
+    ("Sv", dim([2, 0, -2, 0, 0, 0, 0]), 1.0, true),
+    ("kat", dim([0, 0, -1, 0, 0, 1, 0]), 1.0, true),
+    ("min", D_T, 60.0, false),
+    ("h", D_T, 3600.0, false),
+    ("d", D_T, 86400.0, false),
+    ("L", dim([3, 0, 0, 0, 0, 0, 0]), 1e-3, true),
+    ("l", dim([3, 0, 0, 0, 0, 0, 0]), 1e-3, true),
+    ("t", D_M, 1e3, true),
+    ("Da", D_M, 1.660_539_066_60e-27, true),
+    ("eV", dim([2, 1, -2, 0, 0, 0, 0]), 1.602_176_634e-19, true),
+    ("bar", dim([-1, 1, -2, 0, 0, 0, 0]), 1e5, true),
+    ("Å", D_L, 1e-10, false),
+    (
+        "D",
+        dim([1, 0, 1, 1, 0, 0, 0]),
+        1e-21 / 299_792_458.0,
+        false,
+    ),
+    ("ppm", Dimension::ONE, 1e-6, false),
+    ("%", Dimension::ONE, 1e-2, false),
+];
+
+/// SI prefixes (SI Brochure, 9th edition, Table 7; ronna, quetta, ronto,
+/// quecto added in 2022), with `u` accepted for micro.
+const PREFIXES: &[(&str, i32)] = &[
+    ("Q", 30),
+    ("R", 27),
+    ("Y", 24),
+    ("Z", 21),
+    ("E", 18),
+    ("P", 15),
+    ("T", 12),
+    ("G", 9),
+    ("M", 6),
+    ("k", 3),
+    ("h", 2),
+    ("da", 1),
+    ("d", -1),
+    ("c", -2),
+    ("m", -3),
+    ("µ", -6),
+    ("μ", -6),
+    ("u", -6),
+    ("n", -9),
+    ("p", -12),
+    ("f", -15),
+    ("a", -18),
+    ("z", -21),
+    ("y", -24),
+    ("r", -27),
+    ("q", -30),
+];
+
+fn lookup(sym: &str) -> Option<(Dimension, f64)> {
+    if let Some(&(_, d, f, _)) = SYMBOLS.iter().find(|(s, ..)| *s == sym) {
+        return Some((d, f));
+    }
+    for &(p, e) in PREFIXES {
+        if let Some(rest) = sym.strip_prefix(p) {
+            if let Some(&(_, d, f, true)) = SYMBOLS.iter().find(|(s, ..)| *s == rest) {
+                return Some((d, f * 10f64.powi(e)));
+            }
+        }
+    }
+    None
+}
+
+/// Parse a unit.
+///
+/// ```
+/// let u = incertus_units::parse("g/cm^3").unwrap();
+/// assert_eq!(u.dimension.to_string(), "m^-3 kg");
+/// assert!((u.factor - 1000.0).abs() < 1e-12);
+/// ```
+pub fn parse(text: &str) -> Result<Unit, UnitError> {
+    let trimmed = text.trim();
+    if trimmed.is_empty() || trimmed == "1" {
+        return Ok(Unit {
+            text: text.to_string(),
+            ..Unit::dimensionless()
+        });
+    }
+    if matches!(trimmed, "degC" | "°C" | "℃") {
+        return Ok(Unit {
+            text: text.to_string(),
+            dimension: D_TH,
+            factor: 1.0,
+            offset: 273.15,
+        });
+    }
+    let mut p = UnitParser {
+        s: text,
+        pos: 0,
+        depth: 0,
+    };
+    let (d, f) = p.product()?;
+    p.skip_ws();
+    if p.pos < text.len() {
+        let c = text[p.pos..].chars().next().expect("not at the end");
+        return Err(p.err(
+            &format!("unexpected `{c}` in the unit"),
+            p.pos,
+            p.pos + c.len_utf8(),
+        ));
+    }
+    Ok(Unit {
+        text: text.to_string(),
+        dimension: d,
+        factor: f,
+        offset: 0.0,
+    })
+}
+
+struct UnitParser<'a> {
+    s: &'a str,
+    pos: usize,
+    depth: usize,
+}
+
+impl UnitParser<'_> {
+    fn err(&self, m: &str, start: usize, end: usize) -> UnitError {
+        UnitError {
+            message: m.to_string(),
+            start,
+            end,
+        }
+    }
+
+    fn peek(&self) -> Option<char> {
+        self.s[self.pos..].chars().next()
+    }
+
+    fn skip_ws(&mut self) {
+        while let Some(c) = self.peek() {
+            if c.is_whitespace() {
+                self.pos += c.len_utf8();
+            } else {
+                break;
+            }
+        }
+    }
+
+    /// factor ((' ' | '*' | '·')? factor | '/' factor)*; after a `/` every
+    /// further factor divides.
+    fn product(&mut self) -> Result<(Dimension, f64), UnitError> {
+        let (mut d, mut f) = self.factor()?;
+        let mut dividing = false;
+        loop {
+            self.skip_ws();
+            match self.peek() {
+                None | Some(')') => return Ok((d, f)),
+                Some('/') => {
+                    self.pos += 1;
+                    dividing = true;
+                    self.skip_ws();
+                }
+                Some('*') | Some('·') | Some('.') => {
+                    self.pos += self.peek().expect("peeked").len_utf8();
+                    self.skip_ws();
+                }
+                _ => {}
+            }
+            let (d2, f2) = self.factor()?;
+            if dividing {
+                d = d / d2;
+                f /= f2;
+            } else {
+                d = d * d2;
+                f *= f2;
+            }
+        }
+    }
+
+    fn factor(&mut self) -> Result<(Dimension, f64), UnitError> {
+        self.skip_ws();
+        let start = self.pos;
+        let (d, f) = match self.peek() {
+            Some('(') => {
+                self.depth += 1;
+                if self.depth > 16 {
+                    return Err(self.err(
+                        "the unit nests parentheses too deeply",
+                        start,
+                        start + 1,
+                    ));
+                }
+                self.pos += 1;
+                let inner = self.product()?;
+                if self.peek() != Some(')') {
+                    return Err(self.err("expected `)` to close the `(`", start, start + 1));
+                }
+                self.pos += 1;
+                self.depth -= 1;
+                inner
+            }
+            Some('1') => {
+                self.pos += 1;
+                (Dimension::ONE, 1.0)
+            }
+            Some(c) if c.is_alphabetic() || c == '%' || c == 'Å' || c == 'Ω' || c == '°' => {
+                let end = self.s[self.pos..]
+                    .char_indices()
+                    .find(|(_, c)| !(c.is_alphabetic() || *c == '%' || *c == '°'))
+                    .map_or(self.s.len(), |(i, _)| self.pos + i);
+                let sym = &self.s[self.pos..end];
+                self.pos = end;
+                if matches!(sym, "degC" | "°C") {
+                    return Err(self.err(
+                        "°C can only stand alone (it has an offset); for a temperature difference in a compound unit use K",
+                        start,
+                        end,
+                    ));
+                }
+                lookup(sym).ok_or_else(|| {
+                    self.err(
+                        &format!("unknown unit `{sym}` (units are SI symbols with SI prefixes, e.g. mg, mL, kPa, µm, or min, h, d, L, t, bar, eV, Da, Å, D, ppm, %)"),
+                        start,
+                        end,
+                    )
+                })?
+            }
+            Some(c) => {
+                return Err(self.err(
+                    &format!("expected a unit symbol, found `{c}`"),
+                    start,
+                    start + c.len_utf8(),
+                ))
+            }
+            None => return Err(self.err("expected a unit symbol at the end", start, start)),
+        };
+        let (n, den) = self.power()?;
+        let d = d
+            .pow(n, den)
+            .ok_or_else(|| self.err("this power leaves a fractional dimension", start, self.pos))?;
+        Ok((d, f.powf(n as f64 / den as f64)))
+    }
+
+    /// `^n`, `^-n`, `^(n/d)`, `**n`, or superscript digits; default 1.
+    fn power(&mut self) -> Result<(i32, i32), UnitError> {
+        let start = self.pos;
+        let rest = &self.s[self.pos..];
+        let sup = |c: char| "⁰¹²³⁴⁵⁶⁷⁸⁹".chars().position(|s| s == c);
+        if rest.starts_with(['⁻', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹']) {
+            let mut sign = 1;
+            let mut v = 0i32;
+            for c in rest.chars() {
+                if c == '⁻' && v == 0 && sign == 1 {
+                    sign = -1;
+                } else if let Some(dg) = sup(c) {
+                    v = v * 10 + dg as i32;
+                } else {
+                    break;
+                }
+                self.pos += c.len_utf8();
+            }
+            return Ok((sign * v, 1));
+        }
+        let after = if let Some(r) = rest.strip_prefix('^') {
+            self.pos += 1;
+            r
+        } else if let Some(r) = rest.strip_prefix("**") {
+            self.pos += 2;
+            r
+        } else {
+            return Ok((1, 1));
+        };
+        let (text, paren) = match after.strip_prefix('(') {
+            Some(r) => (r.split(')').next().unwrap_or(""), true),
+            None => {
+                let len = after
+                    .char_indices()
+                    .find(|(i, c)| !(c.is_ascii_digit() || (*i == 0 && (*c == '-' || *c == '+'))))
+                    .map_or(after.len(), |(i, _)| i);
+                (&after[..len], false)
+            }
+        };
+        let consumed = text.len() + if paren { 2 } else { 0 };
+        let bad = |p: &Self| {
+            p.err(
+                "expected an integer power such as ^2, ^-3 or ^(1/2)",
+                start,
+                start + 1 + consumed,
+            )
+        };
+        let (n, d) = match text.split_once('/') {
+            Some((a, b)) => (
+                a.trim().parse::<i32>().map_err(|_| bad(self))?,
+                b.trim().parse::<i32>().map_err(|_| bad(self))?,
+            ),
+            None => (text.trim().parse::<i32>().map_err(|_| bad(self))?, 1),
+        };
+        if d == 0 || n.abs() > 64 || d.abs() > 64 {
+            return Err(bad(self));
+        }
+        self.pos += consumed;
+        Ok((n, d))
+    }
+}
