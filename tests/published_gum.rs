@@ -40,10 +40,11 @@ fn jcgm100_h2_resistance_reactance_impedance() {
     let i = model.input("I").unwrap();
     let phi = model.input("phi").unwrap();
     within(v.estimate, 4.9990, 0.0001, "mean of V");
-    within(i.estimate, 19.6610, 0.0001, "mean of I");
+    // Inputs are held in coherent SI: I in A.
+    within(i.estimate * 1e3, 19.6610, 0.0001, "mean of I / mA");
     within(phi.estimate, 1.04446, 0.00001, "mean of phi");
     within(v.standard_uncertainty, 0.0032, 0.0001, "s(V)");
-    within(i.standard_uncertainty, 0.0095, 0.0001, "s(I)");
+    within(i.standard_uncertainty * 1e3, 0.0095, 0.0001, "s(I) / mA");
     within(phi.standard_uncertainty, 0.00075, 0.00001, "s(phi)");
     within(model.correlation(0, 1), -0.36, 0.01, "r(V, I)");
     within(model.correlation(0, 2), 0.86, 0.01, "r(V, phi)");

@@ -33,6 +33,7 @@
 pub mod check;
 pub mod constants;
 pub mod coverage;
+pub mod dimensions;
 mod load;
 pub mod matrix;
 pub mod model;

@@ -469,6 +469,8 @@ const FIT_KEYS: &[&str] = &[
     "exclude_reason",
     "scale_by_chi_squared",
     "description",
+    "x_unit",
+    "y_unit",
 ];
 
 const INPUT_KEYS: &[&str] = &[
@@ -617,6 +619,7 @@ impl Loader<'_> {
                 };
                 let mut r = Reader::new(doc, &path, it, val.span());
                 let input = self.input(&name, &mut r, doc.line(&k.span()), &fits)?;
+                let input = to_si(input, &r)?;
                 if let Some(s) = r.get("sensitivity") {
                     self.collect_sensitivity(inputs.len(), s, &path, &mut pending)?;
                 }
@@ -867,7 +870,12 @@ impl Loader<'_> {
             let formula = parse(&formula_text)
                 .map_err(|e| self.formula_error(&r, "formula", fspan.clone(), &formula_text, &e))?;
             let description = r.string("description")?.map(|x| x.0);
-            let unit = r.string("unit")?.map(|x| x.0);
+            let unit = r.string("unit")?;
+            let unit_si = match &unit {
+                Some((t, span)) => Some(parse_unit(&r, t, span.clone())?),
+                None => None,
+            };
+            let unit = unit.map(|x| x.0);
             let stated = |n: Option<Num>| {
                 n.map(|n| Stated {
                     value: n.value,
@@ -884,6 +892,7 @@ impl Loader<'_> {
                 formula,
                 description,
                 unit,
+                unit_si,
                 expected_value,
                 expected_standard_uncertainty,
                 line: doc.line(&item.span()),
@@ -893,6 +902,11 @@ impl Loader<'_> {
         }
         self.check_formula_names(&inputs, &measurands, items)?;
         let measurands = order_measurands(doc, measurands, items)?;
+        let units = inputs.iter().any(|i| i.unit_si.is_some())
+            || measurands.iter().any(|m| m.unit_si.is_some());
+        if units {
+            self.check_dimensions(&inputs, &measurands, items)?;
+        }
 
         for p in pending {
             self.resolve_sensitivity(p, &mut inputs, &measurands)?;
@@ -906,6 +920,7 @@ impl Loader<'_> {
             correlations,
             measurands,
             fits,
+            units,
         })
     }
 
@@ -966,6 +981,31 @@ impl Loader<'_> {
             }
             let scale = r.boolean("scale_by_chi_squared")?.unwrap_or(false);
             let _ = r.string("description")?;
+            let fit_unit = |key: &str, r: &mut Reader| -> Result<Option<String>> {
+                match r.string(key)? {
+                    None => Ok(None),
+                    Some((t, span)) => {
+                        let u = parse_unit(r, &t, span.clone())?;
+                        if u.offset != 0.0 {
+                            return Err(r.err(
+                                span,
+                                key,
+                                "a fit's unit cannot have an offset; give temperatures in K",
+                            ));
+                        }
+                        Ok(Some(t))
+                    }
+                }
+            };
+            let x_unit = fit_unit("x_unit", &mut r)?;
+            let y_unit = fit_unit("y_unit", &mut r)?;
+            if x_unit.is_some() != y_unit.is_some() {
+                return Err(r.err(
+                    r.span.clone(),
+                    "x_unit",
+                    "give both x_unit and y_unit, or neither",
+                ));
+            }
             let (x, y, uy, ux, rows, source, xname, yname) = match data {
                 Some((file, fspan)) => {
                     let mut names = Vec::new();
@@ -1054,6 +1094,8 @@ impl Loader<'_> {
                 data: source,
                 x: xname,
                 y: yname,
+                x_unit,
+                y_unit,
                 result,
             });
         }
@@ -1080,6 +1122,75 @@ impl Loader<'_> {
         let mut err = r.err(at..at, key, e.message.clone());
         err.detail = Some(incertus_expr::caret(text, e.span));
         err
+    }
+
+    /// Every formula's dimension, and each measurand's against its unit.
+    fn check_dimensions(
+        &self,
+        inputs: &[Input],
+        measurands: &[Measurand],
+        items: &DeArray,
+    ) -> Result<()> {
+        use incertus_units::Dimension;
+        let mut known: Vec<(String, Dimension)> = inputs
+            .iter()
+            .map(|i| {
+                (
+                    i.name.clone(),
+                    i.unit_si.as_ref().map_or(Dimension::ONE, |u| u.dimension),
+                )
+            })
+            .collect();
+        for m in measurands {
+            let index = items
+                .iter()
+                .position(|it| {
+                    it.get_ref()
+                        .as_table()
+                        .and_then(|t| t.iter().find(|(k, _)| k.get_ref().as_ref() == "name"))
+                        .and_then(|(_, v)| v.get_ref().as_str().map(|s| s == m.name))
+                        .unwrap_or(false)
+                })
+                .unwrap_or(0);
+            let item = &items[index];
+            let r = item_reader(
+                self.doc,
+                item,
+                &format!("measurands[{index}]"),
+                "name and formula",
+            )?;
+            let of = |n: &str| {
+                known
+                    .iter()
+                    .find(|(k, _)| k == n)
+                    .map_or(Dimension::ONE, |(_, d)| *d)
+            };
+            let d = crate::dimensions::dimension(&m.formula, &of).map_err(|e| {
+                self.formula_error(
+                    &r,
+                    "formula",
+                    r.value_span_of("formula"),
+                    &m.formula_text,
+                    &e,
+                )
+            })?;
+            if let Some(u) = &m.unit_si {
+                if u.dimension != d {
+                    return Err(r.err(
+                        r.value_span_of("unit"),
+                        "unit",
+                        format!(
+                            "the formula of `{}` has dimension {d}, but its unit `{}` has dimension {}",
+                            m.name,
+                            m.unit.as_deref().unwrap_or(""),
+                            u.dimension
+                        ),
+                    ));
+                }
+            }
+            known.push((m.name.clone(), d));
+        }
+        Ok(())
     }
 
     fn check_formula_names(
@@ -1259,6 +1370,7 @@ impl Loader<'_> {
             observations: None,
             description,
             unit,
+            unit_si: None,
             stated_sensitivities: Vec::new(),
             line,
         };
@@ -1372,6 +1484,21 @@ impl Loader<'_> {
             } else {
                 Distribution::StudentT
             };
+            // The parameter's unit: y / x^k for c_k (intercept c0, slope c1).
+            if let (Some(yu), Some(xu)) = (&f.y_unit, &f.x_unit) {
+                let group = |u: &str| {
+                    if u.contains(['/', ' ', '*', '^']) {
+                        format!("({u})")
+                    } else {
+                        u.to_string()
+                    }
+                };
+                input.unit = Some(match k {
+                    0 => yu.clone(),
+                    1 => format!("{}/{}", group(yu), group(xu)),
+                    _ => format!("{}/{}^{k}", group(yu), group(xu)),
+                });
+            }
             input.evaluation = Evaluation::Fit {
                 fit: fname,
                 parameter: pname,
@@ -1813,6 +1940,77 @@ impl Loader<'_> {
             .push((measurand, stated));
         Ok(())
     }
+}
+
+/// Parse a unit; an error points at the key, with a caret under the unit text.
+fn parse_unit(r: &Reader, text: &str, span: Range<usize>) -> Result<incertus_units::Unit> {
+    incertus_units::parse(text).map_err(|e| {
+        let mut err = r.err(span, "unit", e.message.clone());
+        err.detail = Some(incertus_expr::caret(
+            text,
+            incertus_expr::Span::new(e.start, e.end),
+        ));
+        err
+    })
+}
+
+/// Convert an input given in its unit to coherent SI: values with the
+/// offset (°C to K), uncertainties and half-widths with the factor only.
+fn to_si(mut input: Input, r: &Reader) -> Result<Input> {
+    let Some(text) = input.unit.clone() else {
+        return Ok(input);
+    };
+    let span = r.value_span_of("unit");
+    let u = match parse_unit(r, &text, span.clone()) {
+        Ok(u) => u,
+        // A unit derived for a fit parameter or from the constants table
+        // has no text in the file; name the input instead.
+        Err(mut e) => {
+            e.path = r.path.clone();
+            return Err(e);
+        }
+    };
+    if matches!(input.evaluation, Evaluation::Constant { .. }) {
+        input.unit_si = Some(u);
+        return Ok(input); // the table is in SI already
+    }
+    input.estimate = u.value_to_si(input.estimate);
+    input.standard_uncertainty = u.difference_to_si(input.standard_uncertainty);
+    if let Some(obs) = &mut input.observations {
+        for v in obs.iter_mut() {
+            *v = u.value_to_si(*v);
+        }
+    }
+    let f = u.factor;
+    input.distribution = match input.distribution {
+        Distribution::Rectangular { half_width } => Distribution::Rectangular {
+            half_width: half_width * f,
+        },
+        Distribution::Triangular { half_width } => Distribution::Triangular {
+            half_width: half_width * f,
+        },
+        Distribution::Arcsine { half_width } => Distribution::Arcsine {
+            half_width: half_width * f,
+        },
+        Distribution::Trapezoidal { half_width, beta } => Distribution::Trapezoidal {
+            half_width: half_width * f,
+            beta,
+        },
+        Distribution::CurvilinearTrapezoidal {
+            half_width,
+            limit_half_width,
+        } => Distribution::CurvilinearTrapezoidal {
+            half_width: half_width * f,
+            limit_half_width: limit_half_width * f,
+        },
+        Distribution::Gamma { shape, scale } => Distribution::Gamma {
+            shape,
+            scale: scale * f,
+        },
+        other => other,
+    };
+    input.unit_si = Some(u);
+    Ok(input)
 }
 
 fn unknown_input(n: &str, inputs: &[Input]) -> String {

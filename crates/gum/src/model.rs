@@ -156,7 +156,10 @@ pub struct Input {
     /// Observations of a Type A input, in the order given.
     pub observations: Option<Vec<f64>>,
     pub description: Option<String>,
+    /// The unit as written; estimate and uncertainty above are in coherent SI
+    /// when it is given.
     pub unit: Option<String>,
+    pub unit_si: Option<incertus_units::Unit>,
     /// Sensitivity coefficients the author derived, per measurand name.
     pub stated_sensitivities: Vec<(String, StatedSensitivity)>,
     /// 1-based line where the input is defined.
@@ -184,7 +187,9 @@ pub struct Measurand {
     pub formula_text: String,
     pub formula: Expr,
     pub description: Option<String>,
+    /// The unit to report in.
     pub unit: Option<String>,
+    pub unit_si: Option<incertus_units::Unit>,
     pub expected_value: Option<Stated>,
     pub expected_standard_uncertainty: Option<Stated>,
     pub line: usize,
@@ -211,6 +216,9 @@ pub struct Model {
     pub measurands: Vec<Measurand>,
     /// Least-squares fits whose parameters are inputs.
     pub fits: Vec<NamedFit>,
+    /// Whether the model uses units (then every formula is checked for
+    /// dimensions, and values are converted to coherent SI).
+    pub units: bool,
 }
 
 /// A fit of the model file with its name and data source.
@@ -221,6 +229,8 @@ pub struct NamedFit {
     pub data: String,
     pub x: String,
     pub y: String,
+    pub x_unit: Option<String>,
+    pub y_unit: Option<String>,
     pub result: incertus_fit::FitResult,
 }
 

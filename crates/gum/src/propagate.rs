@@ -375,24 +375,32 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         }
         let u_for_expanded = second.unwrap_or(uc);
 
+        let f_out = m.unit_si.as_ref().map_or(1.0, |un| un.factor);
+        let y_shown = m.unit_si.as_ref().map_or(y, |un| un.value_from_si(y));
         let budget = used
             .iter()
             .map(|&i| {
                 let inp = &model.inputs[i];
                 let (evaluation, observations) = label(model, i);
+                // Shown in the input's and the measurand's own units: the
+                // coefficient becomes c·f_in/f_out, the contribution |c| u / f_out.
+                let f_in = inp.unit_si.as_ref().map_or(1.0, |un| un.factor);
                 BudgetLine {
                     input: inp.name.clone(),
-                    value: x[i],
-                    standard_uncertainty: u[i],
+                    value: inp
+                        .unit_si
+                        .as_ref()
+                        .map_or(x[i], |un| un.value_from_si(x[i])),
+                    standard_uncertainty: u[i] / f_in,
                     dof: inp.dof,
                     distribution: inp.distribution.name().to_string(),
                     evaluation,
                     observations,
                     unit: inp.unit.clone(),
                     description: inp.description.clone(),
-                    sensitivity: c[i],
+                    sensitivity: c[i] * f_in / f_out,
                     sensitivity_formula: formulas[i].clone(),
-                    contribution: (c[i] * u[i]).abs(),
+                    contribution: (c[i] * u[i]).abs() / f_out,
                     share: share(w[i] * w[i]),
                 }
             })
@@ -405,7 +413,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                     model.inputs[cor.b].name.clone(),
                 ],
                 coefficient: cor.coefficient,
-                term: t * s * s,
+                term: t * s * s / (f_out * f_out),
                 share: share(*t),
                 from_observations: cor.from_observations,
                 from_fit: cor.from_fit.clone(),
@@ -416,17 +424,17 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             unit: m.unit.clone(),
             description: m.description.clone(),
             formula: m.formula_text.clone(),
-            value: y,
-            standard_uncertainty: uc,
-            relative_standard_uncertainty: (y != 0.0).then(|| uc / y.abs()),
+            value: y_shown,
+            standard_uncertainty: uc / f_out,
+            relative_standard_uncertainty: (y_shown != 0.0).then(|| uc / f_out / y_shown.abs()),
             effective_dof: nu_eff,
             effective_dof_used: nu_used,
             coverage_probability: p,
             coverage_factor: k,
-            expanded_uncertainty: k * u_for_expanded,
-            second_order_standard_uncertainty: second,
+            expanded_uncertainty: k * u_for_expanded / f_out,
+            second_order_standard_uncertainty: second.map(|v| v / f_out),
             budget,
-            correlation_terms: corr_sum_scaled * s * s,
+            correlation_terms: corr_sum_scaled * s * s / (f_out * f_out),
             correlation_budget,
             monte_carlo: None,
         });
@@ -452,7 +460,18 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             cov[b][a] = q;
         }
     }
-    // The diagonal from the scaled computation above, for consistency.
+    // In the measurands' units; the diagonal from the scaled computation
+    // above, for consistency.
+    let f: Vec<f64> = model
+        .measurands
+        .iter()
+        .map(|m| m.unit_si.as_ref().map_or(1.0, |u| u.factor))
+        .collect();
+    for a in 0..m {
+        for b in 0..m {
+            cov[a][b] /= f[a] * f[b];
+        }
+    }
     for (a, r) in results.iter().enumerate() {
         cov[a][a] = r.standard_uncertainty * r.standard_uncertainty;
     }

@@ -74,7 +74,10 @@ relative_reliability = 0.25
 constant = "k_B"
 [[measurands]]
 name = "y"
-formula = "q + p + c + r + k"
+formula = "q + p + c + r"
+[[measurands]]
+name = "energy_per_kelvin"
+formula = "k"
 "#,
     );
     // JCGM 100:2008, 4.2.1 to 4.2.3: mean, s/√n, n - 1 dof.

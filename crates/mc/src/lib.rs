@@ -608,9 +608,18 @@ fn run_in_pool(
     }
     let mut results = Vec::with_capacity(m);
     for (j, o) in outs.iter_mut().enumerate() {
-        let summary =
+        let mut summary =
             stats::summarize(o, p, 60, Some((total_moments.min[j], total_moments.max[j])));
-        let (sym, short) = (summary.symmetric, summary.shortest);
+        // From coherent SI to the measurand's unit, as the first-order report.
+        let unit = model.measurands[j].unit_si.as_ref();
+        let val = |v: f64| unit.map_or(v, |u| u.value_from_si(v));
+        let f = unit.map_or(1.0, |u| u.factor);
+        let sym = summary.symmetric.map(val);
+        let short = summary.shortest.map(val);
+        for e in summary.histogram.edges.iter_mut() {
+            *e = val(*e);
+        }
+        let (mean_j, sd_j) = (val(means[j]), sds[j] / f);
         let g = &gum.results[j];
         let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
         let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
@@ -619,8 +628,8 @@ fn run_in_pool(
             name: model.measurands[j].name.clone(),
             trials: o.len(),
             seed: settings.seed,
-            value: means[j],
-            standard_uncertainty: sds[j],
+            value: mean_j,
+            standard_uncertainty: sd_j,
             coverage_probability: p,
             symmetric_interval: sym,
             shortest_interval: short,
@@ -634,6 +643,16 @@ fn run_in_pool(
             non_finite_dropped: dropped,
             histogram: summary.histogram,
         });
+    }
+    let factors: Vec<f64> = model
+        .measurands
+        .iter()
+        .map(|m| m.unit_si.as_ref().map_or(1.0, |u| u.factor))
+        .collect();
+    for a in 0..m {
+        for b in 0..m {
+            cov[a][b] /= factors[a] * factors[b];
+        }
     }
     let mnames: Vec<String> = model.measurands.iter().map(|x| x.name.clone()).collect();
     Ok(McReport {

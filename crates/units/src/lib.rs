@@ -15,8 +15,12 @@
 //! `kg m^-3`, `g/cm^3`, `(m^3)^(2/3)`, `m²`, `µm` or `um`, `degC` or `°C`.
 //! A rational power is accepted where the result is a whole dimension.
 //!
-//! Temperatures: a value in °C becomes K by adding 273.15; an uncertainty
-//! or a difference in °C is the same number in K (factor 1, no offset).
+//! Temperatures: a value in °C (the unit alone) becomes K by adding 273.15;
+//! an uncertainty or a difference in °C is the same number in K (factor 1,
+//! no offset). Inside a compound unit (`1/°C`, `J/(kg °C)`) °C is a
+//! temperature interval and means K. A quantity that is itself a
+//! temperature difference (a deviation from 20 °C, say) is best given in K,
+//! since `degC` alone converts values with the offset.
 
 use std::fmt;
 
@@ -411,20 +415,19 @@ impl UnitParser<'_> {
                     .map_or(self.s.len(), |(i, _)| self.pos + i);
                 let sym = &self.s[self.pos..end];
                 self.pos = end;
+                // Inside a compound unit (1/°C, J/(kg °C)) the degree Celsius
+                // is a temperature interval: the kelvin, without offset.
                 if matches!(sym, "degC" | "°C") {
-                    return Err(self.err(
-                        "°C can only stand alone (it has an offset); for a temperature difference in a compound unit use K",
-                        start,
-                        end,
-                    ));
+                    (D_TH, 1.0)
+                } else {
+                    lookup(sym).ok_or_else(|| {
+                        self.err(
+                            &format!("unknown unit `{sym}` (units are SI symbols with SI prefixes, e.g. mg, mL, kPa, µm, or min, h, d, L, t, bar, eV, Da, Å, D, ppm, %)"),
+                            start,
+                            end,
+                        )
+                    })?
                 }
-                lookup(sym).ok_or_else(|| {
-                    self.err(
-                        &format!("unknown unit `{sym}` (units are SI symbols with SI prefixes, e.g. mg, mL, kPa, µm, or min, h, d, L, t, bar, eV, Da, Å, D, ppm, %)"),
-                        start,
-                        end,
-                    )
-                })?
             }
             Some(c) => {
                 return Err(self.err(
