@@ -30,6 +30,7 @@
 //! assert!((y.standard_uncertainty - 0.5).abs() < 1e-15);
 //! ```
 
+pub mod builder;
 pub mod check;
 pub mod constants;
 pub mod coverage;
@@ -37,6 +38,7 @@ pub mod dimensions;
 mod load;
 pub mod matrix;
 pub mod model;
+pub mod number;
 pub mod propagate;
 pub mod rounding;
 pub mod typea;

@@ -1,0 +1,596 @@
+//! Uncertain numbers for embedding: a value with a sparse gradient over the
+//! named base inputs of a [`Session`], so that arithmetic keeps track of
+//! which inputs a result depends on and how strongly (first-order
+//! propagation, JCGM 100:2008, 5.1 and 5.2). Two results computed from the
+//! same input are correlated, and `y - x*x` with `y = x*x` is exactly zero
+//! with zero uncertainty.
+//!
+//! ```
+//! use incertus_gum::number::Session;
+//! let mut s = Session::new();
+//! let x = s.input("x", 2.0, 0.1);
+//! let y = s.input("y", 3.0, 0.2);
+//! s.correlate(&x, &y, 0.5).unwrap();
+//! let z = &x * &y + x.sin();
+//! assert_eq!(z.value(), 6.0 + 2f64.sin());
+//! let y2 = &x * &x;
+//! let zero = &y2 - &(&x * &x);
+//! assert_eq!(s.standard_uncertainty(&zero), 0.0);
+//! assert!(s.standard_uncertainty(&z) > 0.0);
+//! ```
+//!
+//! The budget of a result ([`Session::budget`]) is the one the symbolic
+//! engine gives for the same formula (a property test holds this).
+
+use std::ops::{Add, Div, Mul, Neg, Sub};
+
+use crate::coverage::welch_satterthwaite;
+use crate::model::Dof;
+
+/// A value and its sensitivity coefficients to the base inputs (sorted by
+/// input index, zeros dropped).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Uncertain {
+    value: f64,
+    grad: Vec<(usize, f64)>,
+}
+
+/// One base input of a session.
+#[derive(Clone, Debug, PartialEq)]
+pub struct BaseInput {
+    pub name: String,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub dof: Dof,
+}
+
+/// The base inputs and their correlations.
+#[derive(Clone, Debug, Default)]
+pub struct Session {
+    inputs: Vec<BaseInput>,
+    correlations: Vec<(usize, usize, f64)>,
+}
+
+/// One line of the budget of an uncertain number.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Line {
+    pub input: String,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub sensitivity: f64,
+    /// |c_i| u(x_i).
+    pub contribution: f64,
+}
+
+impl Session {
+    pub fn new() -> Session {
+        Session::default()
+    }
+
+    /// A new base input with infinite dof.
+    pub fn input(&mut self, name: &str, value: f64, u: f64) -> Uncertain {
+        self.input_with_dof(name, value, u, None)
+    }
+
+    /// A new base input with the given degrees of freedom.
+    pub fn input_with_dof(&mut self, name: &str, value: f64, u: f64, dof: Dof) -> Uncertain {
+        let i = self.inputs.len();
+        self.inputs.push(BaseInput {
+            name: name.to_string(),
+            value,
+            standard_uncertainty: u.abs(),
+            dof,
+        });
+        Uncertain {
+            value,
+            grad: if u != 0.0 { vec![(i, 1.0)] } else { Vec::new() },
+        }
+    }
+
+    pub fn inputs(&self) -> &[BaseInput] {
+        &self.inputs
+    }
+
+    /// Set the correlation coefficient of two base inputs (each must be an
+    /// input itself, not a result).
+    pub fn correlate(&mut self, a: &Uncertain, b: &Uncertain, r: f64) -> Result<(), String> {
+        let one = |x: &Uncertain| match x.grad.as_slice() {
+            [(i, c)] if *c == 1.0 && x.value == self.inputs[*i].value => Some(*i),
+            _ => None,
+        };
+        let (Some(i), Some(j)) = (one(a), one(b)) else {
+            return Err("correlations are between base inputs, not results".into());
+        };
+        if i == j {
+            return Err("an input cannot be correlated with itself".into());
+        }
+        if !(-1.0..=1.0).contains(&r) {
+            return Err(format!(
+                "a correlation coefficient lies in [-1, 1], not {r}"
+            ));
+        }
+        self.correlations
+            .retain(|(p, q, _)| !((*p == i && *q == j) || (*p == j && *q == i)));
+        self.correlations.push((i, j, r));
+        Ok(())
+    }
+
+    fn corr(&self, i: usize, j: usize) -> f64 {
+        if i == j {
+            return 1.0;
+        }
+        self.correlations
+            .iter()
+            .find(|(p, q, _)| (*p == i && *q == j) || (*p == j && *q == i))
+            .map_or(0.0, |t| t.2)
+    }
+
+    /// u(y) = √(cᵀ V c) over the base inputs.
+    pub fn standard_uncertainty(&self, y: &Uncertain) -> f64 {
+        self.covariance(y, y).max(0.0).sqrt()
+    }
+
+    /// u(y, z) = c_yᵀ V c_z: results sharing inputs are correlated.
+    pub fn covariance(&self, y: &Uncertain, z: &Uncertain) -> f64 {
+        let mut s = 0.0;
+        for &(i, ci) in &y.grad {
+            for &(j, cj) in &z.grad {
+                let r = self.corr(i, j);
+                if r != 0.0 {
+                    s += ci
+                        * cj
+                        * r
+                        * self.inputs[i].standard_uncertainty
+                        * self.inputs[j].standard_uncertainty;
+                }
+            }
+        }
+        s
+    }
+
+    /// Correlation coefficient of two results.
+    pub fn correlation(&self, y: &Uncertain, z: &Uncertain) -> f64 {
+        let (a, b) = (self.standard_uncertainty(y), self.standard_uncertainty(z));
+        if a == 0.0 || b == 0.0 {
+            0.0
+        } else {
+            self.covariance(y, z) / (a * b)
+        }
+    }
+
+    /// The budget: one line per base input the result depends on.
+    pub fn budget(&self, y: &Uncertain) -> Vec<Line> {
+        y.grad
+            .iter()
+            .map(|&(i, c)| {
+                let b = &self.inputs[i];
+                Line {
+                    input: b.name.clone(),
+                    value: b.value,
+                    standard_uncertainty: b.standard_uncertainty,
+                    sensitivity: c,
+                    contribution: (c * b.standard_uncertainty).abs(),
+                }
+            })
+            .collect()
+    }
+
+    /// Welch-Satterthwaite effective dof (JCGM 100:2008, G.4.1; correlated
+    /// inputs counted as in the symbolic engine: a group with its least dof).
+    pub fn effective_dof(&self, y: &Uncertain) -> Dof {
+        let uc = self.standard_uncertainty(y);
+        let comps: Vec<(f64, Dof)> = y
+            .grad
+            .iter()
+            .map(|&(i, c)| {
+                (
+                    (c * self.inputs[i].standard_uncertainty).abs(),
+                    self.inputs[i].dof,
+                )
+            })
+            .collect();
+        welch_satterthwaite(uc, &comps)
+    }
+}
+
+fn merge(a: &[(usize, f64)], ka: f64, b: &[(usize, f64)], kb: f64) -> Vec<(usize, f64)> {
+    let mut out = Vec::with_capacity(a.len() + b.len());
+    let (mut i, mut j) = (0, 0);
+    while i < a.len() || j < b.len() {
+        let (idx, v) = match (a.get(i), b.get(j)) {
+            (Some(&(ia, va)), Some(&(ib, vb))) if ia == ib => {
+                i += 1;
+                j += 1;
+                (ia, ka * va + kb * vb)
+            }
+            (Some(&(ia, va)), Some(&(ib, _))) if ia < ib => {
+                i += 1;
+                (ia, ka * va)
+            }
+            (Some(&(ia, va)), None) => {
+                i += 1;
+                (ia, ka * va)
+            }
+            (_, Some(&(ib, vb))) => {
+                j += 1;
+                (ib, kb * vb)
+            }
+            (None, None) => unreachable!("the loop condition holds"),
+        };
+        if v != 0.0 {
+            out.push((idx, v));
+        }
+    }
+    out
+}
+
+impl Uncertain {
+    /// An exact number.
+    pub fn exact(value: f64) -> Uncertain {
+        Uncertain {
+            value,
+            grad: Vec::new(),
+        }
+    }
+
+    pub fn value(&self) -> f64 {
+        self.value
+    }
+
+    /// The sensitivity coefficient to base input `i` of the session.
+    pub fn sensitivity(&self, i: usize) -> f64 {
+        self.grad.iter().find(|(k, _)| *k == i).map_or(0.0, |t| t.1)
+    }
+
+    /// Apply a function of one argument with derivative `d` at the value.
+    fn chain(&self, value: f64, d: f64) -> Uncertain {
+        Uncertain {
+            value,
+            grad: self
+                .grad
+                .iter()
+                .filter_map(|&(i, c)| {
+                    let v = c * d;
+                    (v != 0.0).then_some((i, v))
+                })
+                .collect(),
+        }
+    }
+
+    pub fn sqrt(&self) -> Uncertain {
+        let s = self.value.sqrt();
+        self.chain(s, 0.5 / s)
+    }
+    pub fn cbrt(&self) -> Uncertain {
+        let s = self.value.cbrt();
+        self.chain(s, 1.0 / (3.0 * s * s))
+    }
+    pub fn exp(&self) -> Uncertain {
+        let e = self.value.exp();
+        self.chain(e, e)
+    }
+    pub fn ln(&self) -> Uncertain {
+        self.chain(self.value.ln(), 1.0 / self.value)
+    }
+    pub fn log10(&self) -> Uncertain {
+        self.chain(
+            self.value.log10(),
+            1.0 / (self.value * std::f64::consts::LN_10),
+        )
+    }
+    pub fn log2(&self) -> Uncertain {
+        self.chain(
+            self.value.log2(),
+            1.0 / (self.value * std::f64::consts::LN_2),
+        )
+    }
+    pub fn sin(&self) -> Uncertain {
+        self.chain(self.value.sin(), self.value.cos())
+    }
+    pub fn cos(&self) -> Uncertain {
+        self.chain(self.value.cos(), -self.value.sin())
+    }
+    pub fn tan(&self) -> Uncertain {
+        let c = self.value.cos();
+        self.chain(self.value.tan(), 1.0 / (c * c))
+    }
+    pub fn asin(&self) -> Uncertain {
+        self.chain(
+            self.value.asin(),
+            1.0 / (1.0 - self.value * self.value).sqrt(),
+        )
+    }
+    pub fn acos(&self) -> Uncertain {
+        self.chain(
+            self.value.acos(),
+            -1.0 / (1.0 - self.value * self.value).sqrt(),
+        )
+    }
+    pub fn atan(&self) -> Uncertain {
+        self.chain(self.value.atan(), 1.0 / (1.0 + self.value * self.value))
+    }
+    pub fn sinh(&self) -> Uncertain {
+        self.chain(self.value.sinh(), self.value.cosh())
+    }
+    pub fn cosh(&self) -> Uncertain {
+        self.chain(self.value.cosh(), self.value.sinh())
+    }
+    pub fn tanh(&self) -> Uncertain {
+        let c = self.value.cosh();
+        self.chain(self.value.tanh(), 1.0 / (c * c))
+    }
+    pub fn asinh(&self) -> Uncertain {
+        self.chain(
+            self.value.asinh(),
+            1.0 / (self.value * self.value + 1.0).sqrt(),
+        )
+    }
+    pub fn acosh(&self) -> Uncertain {
+        self.chain(
+            self.value.acosh(),
+            1.0 / (self.value * self.value - 1.0).sqrt(),
+        )
+    }
+    pub fn atanh(&self) -> Uncertain {
+        self.chain(self.value.atanh(), 1.0 / (1.0 - self.value * self.value))
+    }
+    pub fn abs(&self) -> Uncertain {
+        self.chain(
+            self.value.abs(),
+            if self.value > 0.0 {
+                1.0
+            } else if self.value < 0.0 {
+                -1.0
+            } else {
+                0.0
+            },
+        )
+    }
+    pub fn sign(&self) -> Uncertain {
+        Uncertain::exact(if self.value > 0.0 {
+            1.0
+        } else if self.value < 0.0 {
+            -1.0
+        } else {
+            0.0
+        })
+    }
+    /// Integer power (x·x for 2, as the formula engine does).
+    pub fn powi(&self, n: i32) -> Uncertain {
+        let v = if n == 2 {
+            self.value * self.value
+        } else {
+            self.value.powi(n)
+        };
+        self.chain(v, n as f64 * self.value.powi(n - 1))
+    }
+    /// A power with an uncertain exponent: d(a^b) = b a^(b−1) da + a^b ln(a) db.
+    pub fn pow(&self, e: &Uncertain) -> Uncertain {
+        let v = self.value.powf(e.value);
+        let da = e.value * self.value.powf(e.value - 1.0);
+        let db = if e.grad.is_empty() {
+            0.0
+        } else {
+            v * self.value.ln()
+        };
+        Uncertain {
+            value: v,
+            grad: merge(&self.grad, da, &e.grad, db),
+        }
+    }
+    pub fn atan2(&self, x: &Uncertain) -> Uncertain {
+        let r2 = self.value * self.value + x.value * x.value;
+        Uncertain {
+            value: self.value.atan2(x.value),
+            grad: merge(&self.grad, x.value / r2, &x.grad, -self.value / r2),
+        }
+    }
+    pub fn hypot(&self, b: &Uncertain) -> Uncertain {
+        let h = self.value.hypot(b.value);
+        Uncertain {
+            value: h,
+            grad: merge(&self.grad, self.value / h, &b.grad, b.value / h),
+        }
+    }
+}
+
+impl From<f64> for Uncertain {
+    fn from(v: f64) -> Self {
+        Uncertain::exact(v)
+    }
+}
+
+macro_rules! binop {
+    ($tr:ident, $m:ident, $f:expr) => {
+        impl $tr<&Uncertain> for &Uncertain {
+            type Output = Uncertain;
+            fn $m(self, o: &Uncertain) -> Uncertain {
+                $f(self, o)
+            }
+        }
+        impl $tr<Uncertain> for Uncertain {
+            type Output = Uncertain;
+            fn $m(self, o: Uncertain) -> Uncertain {
+                $f(&self, &o)
+            }
+        }
+        impl $tr<&Uncertain> for Uncertain {
+            type Output = Uncertain;
+            fn $m(self, o: &Uncertain) -> Uncertain {
+                $f(&self, o)
+            }
+        }
+        impl $tr<Uncertain> for &Uncertain {
+            type Output = Uncertain;
+            fn $m(self, o: Uncertain) -> Uncertain {
+                $f(self, &o)
+            }
+        }
+        impl $tr<f64> for Uncertain {
+            type Output = Uncertain;
+            fn $m(self, o: f64) -> Uncertain {
+                $f(&self, &Uncertain::exact(o))
+            }
+        }
+        impl $tr<f64> for &Uncertain {
+            type Output = Uncertain;
+            fn $m(self, o: f64) -> Uncertain {
+                $f(self, &Uncertain::exact(o))
+            }
+        }
+        impl $tr<Uncertain> for f64 {
+            type Output = Uncertain;
+            fn $m(self, o: Uncertain) -> Uncertain {
+                $f(&Uncertain::exact(self), &o)
+            }
+        }
+        impl $tr<&Uncertain> for f64 {
+            type Output = Uncertain;
+            fn $m(self, o: &Uncertain) -> Uncertain {
+                $f(&Uncertain::exact(self), o)
+            }
+        }
+    };
+}
+
+binop!(Add, add, |a: &Uncertain, b: &Uncertain| Uncertain {
+    value: a.value + b.value,
+    grad: merge(&a.grad, 1.0, &b.grad, 1.0)
+});
+binop!(Sub, sub, |a: &Uncertain, b: &Uncertain| Uncertain {
+    value: a.value - b.value,
+    grad: merge(&a.grad, 1.0, &b.grad, -1.0)
+});
+binop!(Mul, mul, |a: &Uncertain, b: &Uncertain| Uncertain {
+    value: a.value * b.value,
+    grad: merge(&a.grad, b.value, &b.grad, a.value)
+});
+binop!(Div, div, |a: &Uncertain, b: &Uncertain| Uncertain {
+    value: a.value / b.value,
+    grad: merge(
+        &a.grad,
+        1.0 / b.value,
+        &b.grad,
+        -a.value / (b.value * b.value)
+    )
+});
+
+impl Neg for Uncertain {
+    type Output = Uncertain;
+    fn neg(self) -> Uncertain {
+        self.chain(-self.value, -1.0)
+    }
+}
+
+impl Neg for &Uncertain {
+    type Output = Uncertain;
+    fn neg(self) -> Uncertain {
+        self.chain(-self.value, -1.0)
+    }
+}
+
+/// Evaluate a formula of the expression language on uncertain numbers.
+pub fn eval_expr(
+    e: &incertus_expr::Expr,
+    env: &dyn Fn(&str) -> Option<Uncertain>,
+) -> Result<Uncertain, incertus_expr::FormulaError> {
+    use incertus_expr::{ErrorKind, FormulaError, Func, Kind};
+    let domain = |what: &str| FormulaError::new(ErrorKind::Domain, what.to_string(), e.span);
+    let v = match &e.kind {
+        Kind::Num(v) => Uncertain::exact(*v),
+        Kind::Pi => Uncertain::exact(std::f64::consts::PI),
+        Kind::Var(n) => env(n).ok_or_else(|| {
+            FormulaError::new(ErrorKind::Name, format!("`{n}` is not defined"), e.span)
+        })?,
+        Kind::Neg(a) => -eval_expr(a, env)?,
+        Kind::Sum(ts) => {
+            let mut acc: Option<Uncertain> = None;
+            for t in ts {
+                let v = eval_expr(&t.expr, env)?;
+                acc = Some(match (acc, t.negative) {
+                    (None, false) => v,
+                    (None, true) => -v,
+                    (Some(a), false) => a + v,
+                    (Some(a), true) => a - v,
+                });
+            }
+            acc.expect("a sum has terms")
+        }
+        Kind::Product(fs) => {
+            let mut acc: Option<Uncertain> = None;
+            for f in fs {
+                let v = eval_expr(&f.expr, env)?;
+                if f.divide && v.value == 0.0 {
+                    return Err(FormulaError::new(
+                        ErrorKind::Domain,
+                        "division by zero",
+                        f.expr.span,
+                    ));
+                }
+                acc = Some(match (acc, f.divide) {
+                    (None, false) => v,
+                    (None, true) => 1.0 / v,
+                    (Some(a), false) => a * v,
+                    (Some(a), true) => a / v,
+                });
+            }
+            acc.expect("a product has factors")
+        }
+        Kind::Pow(b, x) => pow_node(b, x, env)?,
+        Kind::Call(Func::Pow, args) => pow_node(&args[0], &args[1], env)?,
+        Kind::Call(f, args) => {
+            let a = eval_expr(&args[0], env)?;
+            let check = |ok: bool, what: &str| if ok { Ok(()) } else { Err(domain(what)) };
+            match f {
+                Func::Sqrt => {
+                    check(a.value >= 0.0, "square root of a negative number")?;
+                    a.sqrt()
+                }
+                Func::Cbrt => a.cbrt(),
+                Func::Exp => a.exp(),
+                Func::Ln | Func::Log10 | Func::Log2 => {
+                    check(a.value > 0.0, "logarithm of a number that is not positive")?;
+                    match f {
+                        Func::Ln => a.ln(),
+                        Func::Log10 => a.log10(),
+                        _ => a.log2(),
+                    }
+                }
+                Func::Sin => a.sin(),
+                Func::Cos => a.cos(),
+                Func::Tan => a.tan(),
+                Func::Asin => a.asin(),
+                Func::Acos => a.acos(),
+                Func::Atan => a.atan(),
+                Func::Sinh => a.sinh(),
+                Func::Cosh => a.cosh(),
+                Func::Tanh => a.tanh(),
+                Func::Asinh => a.asinh(),
+                Func::Acosh => a.acosh(),
+                Func::Atanh => a.atanh(),
+                Func::Abs => a.abs(),
+                Func::Sign => a.sign(),
+                Func::Atan2 => a.atan2(&eval_expr(&args[1], env)?),
+                Func::Hypot => a.hypot(&eval_expr(&args[1], env)?),
+                Func::Pow => unreachable!("handled above"),
+            }
+        }
+    };
+    if !v.value.is_finite() {
+        return Err(domain("the value is not a finite number"));
+    }
+    Ok(v)
+}
+
+fn pow_node(
+    b: &incertus_expr::Expr,
+    x: &incertus_expr::Expr,
+    env: &dyn Fn(&str) -> Option<Uncertain>,
+) -> Result<Uncertain, incertus_expr::FormulaError> {
+    let base = eval_expr(b, env)?;
+    if let Some(n) = incertus_expr::func::literal_integer(x) {
+        return Ok(base.powi(n));
+    }
+    let e = eval_expr(x, env)?;
+    Ok(base.pow(&e))
+}

@@ -1,0 +1,41 @@
+//! Uncertain numbers in Rust code: arithmetic that keeps track of the
+//! inputs and their correlation (invented demonstration values).
+//!
+//! Run: `cargo run --example uncertain_numbers`
+
+use incertus::gum::number::Session;
+
+fn main() {
+    let mut s = Session::new();
+    // Two resistors read on the same meter: their readings are correlated.
+    let r1 = s.input("R1", 100.02, 0.05);
+    let r2 = s.input("R2", 149.97, 0.07);
+    s.correlate(&r1, &r2, 0.6).expect("both are inputs");
+    let series = &r1 + &r2;
+    let parallel = &(&r1 * &r2) / &series;
+    for (name, y) in [("series", &series), ("parallel", &parallel)] {
+        println!(
+            "{name:9} = {:.4} ± {:.4} ohm",
+            y.value(),
+            s.standard_uncertainty(y)
+        );
+        for line in s.budget(y) {
+            println!(
+                "    {:3} c = {:+.5}  contribution {:.5} ohm",
+                line.input, line.sensitivity, line.contribution
+            );
+        }
+    }
+    println!(
+        "correlation of series and parallel: {:.4}",
+        s.correlation(&series, &parallel)
+    );
+    // A result minus itself computed another way is exactly zero.
+    let again = &r2 + &r1;
+    let zero = &series - &again;
+    println!(
+        "series - (R2 + R1) = {} ± {}",
+        zero.value(),
+        s.standard_uncertainty(&zero)
+    );
+}
