@@ -15,6 +15,7 @@ mod derive_cmd;
 mod eval_cmd;
 mod fit_cmd;
 pub mod report;
+mod shell;
 
 /// Exit code for a problem with the user's input.
 pub const EXIT_INPUT: u8 = 1;
@@ -43,6 +44,8 @@ enum Command {
     Check(eval_cmd::CheckArgs),
     /// Fit a straight line or polynomial to columns of a CSV file by least squares, with diagnostics
     Fit(fit_cmd::FitArgs),
+    /// Type uncertain values and formulas at a prompt (or pipe statements in)
+    Shell(shell::ShellArgs),
 }
 
 /// An error a command reports: the text to print and the exit code.
@@ -98,6 +101,7 @@ where
         Command::Eval(a) => eval_cmd::run_eval(&a, out),
         Command::Check(a) => eval_cmd::run_check(&a, out),
         Command::Fit(a) => fit_cmd::run(&a, out),
+        Command::Shell(a) => shell::run(&a, out),
     };
     match result {
         Ok(()) => 0,

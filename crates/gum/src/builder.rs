@@ -35,8 +35,8 @@ fn num(v: f64) -> String {
     }
 }
 
-/// A TOML basic string.
-pub(crate) fn text(s: &str) -> String {
+/// A TOML basic string (quoted and escaped).
+pub fn text(s: &str) -> String {
     let mut out = String::from("\"");
     for c in s.chars() {
         match c {

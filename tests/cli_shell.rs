@@ -1,0 +1,130 @@
+//! Piped `incertus shell` sessions end to end, with exact expected output.
+
+mod common;
+use common::scratch;
+
+use std::io::Write;
+use std::process::{Command, Stdio};
+
+fn session(input: &str, home: &std::path::Path, cwd: &std::path::Path) -> (i32, String) {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .arg("shell")
+        .env("INCERTUS_HOME", home)
+        .current_dir(cwd)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("the binary runs");
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(input.as_bytes())
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+    )
+}
+
+#[test]
+fn a_scripted_session_prints_exactly_this() {
+    let dir = scratch("shell1");
+    let (code, out) = session(
+        "x = 2.0 ± 0.1\n\
+         y = 3.0 +- 0.2\n\
+         z = 1.234(5)\n\
+         w = 10.0 ± 0.5 (k=2)\n\
+         q = x*y\n\
+         r = q - x*y   # exactly zero\n\
+         x^2\n\
+         correlate x y 0.5\n\
+         q\n\
+         sensitivities q\n\
+         foo(x)\n\
+         q = x*\n\
+         q\n\
+         quit\n",
+        &dir.join("home"),
+        &dir,
+    );
+    assert_eq!(code, 0);
+    // u(x y) = √((3·0.1)² + (2·0.2)²) = 0.5; with r = 0.5 the correlation
+    // term 2·3·2·0.5·0.1·0.2 = 0.12 makes u² = 0.37 (JCGM 100:2008, 5.2.2).
+    let expected = "\
+x = 2.00 ± 0.10   [2.00(10)]   (± is the standard uncertainty u)
+y = 3.00 ± 0.20   [3.00(20)]   (± is the standard uncertainty u)
+z = 1.2340 ± 0.0050   [1.2340(50)]   (± is the standard uncertainty u)
+w = 10.00 ± 0.25   [10.00(25)]   (± is the standard uncertainty u)
+q = 6.00 ± 0.50   [6.00(50)]   (± is the standard uncertainty u)
+r = 0  (exact)
+4.00 ± 0.40   [4.00(40)]   (± is the standard uncertainty u)
+r(x, y) = 0.5
+6.00 ± 0.61   [6.00(61)]   (± is the standard uncertainty u)
+∂q/∂x = y  = 3
+∂q/∂y = x  = 2
+error: unknown function `foo`; known functions: sqrt, cbrt, exp, ln, log10, log2, sin, cos, tan, asin, acos, atan, atan2, sinh, cosh, tanh, asinh, acosh, atanh, abs, sign, hypot, pow
+foo(x)
+^^^
+error: expected a number, a name or '(' but found the end of the formula
+x*
+  ^
+6.00 ± 0.61   [6.00(61)]   (± is the standard uncertainty u)
+";
+    assert_eq!(out, expected);
+    // The definitions were kept for recovery.
+    assert!(dir.join("home/recovery.toml").exists());
+}
+
+#[test]
+fn save_then_eval_gives_the_same_numbers_and_never_overwrites() {
+    let dir = scratch("shell2");
+    let (code, out) = session(
+        "a = 10.0 ± 0.5 rectangular [mm] dof=8\nb = 2.5 ± 0.01 [mm]\nA = a*b [mm^2]\nsave area.toml\nsave area.toml\nquit\n",
+        &dir.join("home"),
+        &dir,
+    );
+    assert_eq!(code, 0);
+    assert!(out.contains("A = 25.00 ± 0.73 mm^2"), "{out}");
+    assert!(out.contains("saved to area.toml"));
+    assert!(
+        out.contains("error: area.toml exists; use save! area.toml to replace it"),
+        "{out}"
+    );
+    let ev = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .args(["eval", "area.toml", "--format", "json"])
+        .current_dir(&dir)
+        .output()
+        .unwrap();
+    assert!(
+        ev.status.success(),
+        "{}",
+        String::from_utf8_lossy(&ev.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&ev.stdout).unwrap();
+    let r = &v["results"][0];
+    assert_eq!(r["name"], "A");
+    assert!((r["value"].as_f64().unwrap() - 25.0).abs() < 1e-12);
+    // u = √((2.5·0.5/√3)² + (10·0.01)²) in mm².
+    let u = ((2.5f64 * 0.5 / 3f64.sqrt()).powi(2) + 0.1f64.powi(2)).sqrt();
+    assert!((r["standard_uncertainty"].as_f64().unwrap() - u).abs() < 1e-12);
+    // Loading it back into a new session gives the same result line.
+    let (_, out2) = session("load area.toml\nA\n", &dir.join("home"), &dir);
+    assert!(
+        out2.starts_with("loaded 3 definitions from area.toml\n"),
+        "{out2}"
+    );
+    assert!(out2.contains("25.00 ± 0.73"), "{out2}");
+}
+
+#[test]
+fn the_recovery_file_is_offered_to_the_next_session() {
+    let dir = scratch("shell3");
+    let home = dir.join("home");
+    session("x = 1.5 ± 0.1\n", &home, &dir); // ends at end of input
+    let (_, out) = session("recover\nx*2\n", &home, &dir);
+    assert!(out.contains("loaded 1 definitions"), "{out}");
+    assert!(out.contains("3.00 ± 0.20"), "{out}");
+}
