@@ -53,6 +53,12 @@ pub struct EvalArgs {
     /// Most trials the adaptive procedure may use
     #[arg(long, value_name = "N", default_value_t = 100_000_000)]
     mc_max_trials: usize,
+    /// Also write a report folder: HTML, Markdown, CSV, JSON and SVG plots
+    #[arg(long, value_name = "DIR")]
+    report: Option<PathBuf>,
+    /// Replace the report files in an existing, non-empty report folder
+    #[arg(long)]
+    force: bool,
 }
 
 fn mc_settings(a: &EvalArgs) -> Result<Option<incertus_mc::Settings>, Failure> {
@@ -142,6 +148,15 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
         Format::Csv => report::csv(&report),
     };
     let _ = out.write_all(text.as_bytes());
+    if let Some(dir) = &a.report {
+        let files = crate::files::write_report(dir, a.force, &report, mc.as_ref(), &[], style)?;
+        let _ = writeln!(
+            out,
+            "report written to {}: {}",
+            dir.display(),
+            files.join(", ")
+        );
+    }
     Ok(())
 }
 

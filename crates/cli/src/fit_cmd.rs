@@ -46,6 +46,12 @@ pub struct FitArgs {
     /// Output format
     #[arg(long, value_enum, default_value_t = FitFormat::Text)]
     format: FitFormat,
+    /// Also write a report folder: HTML, JSON and SVG plots of the fit
+    #[arg(long, value_name = "DIR")]
+    report: Option<PathBuf>,
+    /// Replace the report files in an existing, non-empty report folder
+    #[arg(long)]
+    force: bool,
 }
 
 pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
@@ -118,5 +124,44 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
         }
     };
     let _ = out.write_all(text.as_bytes());
+    if let Some(dir) = &a.report {
+        let empty = incertus_gum::Report {
+            title: Some(format!("Least-squares fit of {} against {}", a.y, a.x)),
+            fits: vec![incertus_gum::model::NamedFit {
+                name: "fit".into(),
+                data: a.file.display().to_string(),
+                x: a.x.clone(),
+                y: a.y.clone(),
+                x_unit: None,
+                y_unit: None,
+                result: result.clone(),
+            }],
+            results: Vec::new(),
+            correlation_matrix: incertus_gum::propagate::NamedMatrix {
+                names: vec![],
+                matrix: vec![],
+            },
+            covariance_matrix: incertus_gum::propagate::NamedMatrix {
+                names: vec![],
+                matrix: vec![],
+            },
+            notes: Vec::new(),
+            effective_dof_rounding: "truncate".into(),
+        };
+        let files = crate::files::write_report(
+            dir,
+            a.force,
+            &empty,
+            None,
+            &[],
+            crate::report::Style { digits: 2 },
+        )?;
+        let _ = writeln!(
+            out,
+            "report written to {}: {}",
+            dir.display(),
+            files.join(", ")
+        );
+    }
     Ok(())
 }

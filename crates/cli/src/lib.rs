@@ -13,6 +13,7 @@ use clap::{Parser, Subcommand};
 
 mod derive_cmd;
 mod eval_cmd;
+mod files;
 mod fit_cmd;
 pub mod report;
 mod shell;

@@ -1,0 +1,515 @@
+//! `--report DIR`: a folder a laboratory can file: a self-contained HTML
+//! report (inline styles and SVG plots, no scripts, no network), the same
+//! content as Markdown, the budget as CSV, the full result as JSON, and each
+//! plot as an SVG file. Every file is written to a temporary name and
+//! renamed; an existing folder that is not empty is refused unless
+//! `--force` is given.
+//!
+//! Plots (plotters, SVG, greyscale): contributions to u²(y); the Monte Carlo
+//! histogram with the first-order distribution and both coverage intervals;
+//! for fits, the data with the fitted line and its 95 % confidence band, and
+//! the residuals with flagged and excluded points marked.
+
+use std::path::Path;
+
+use incertus_fit::FitResult;
+use incertus_gum::Report;
+use incertus_mc::McReport;
+use plotters::prelude::*;
+use statrs::distribution::{Continuous, Normal, StudentsT};
+
+use crate::report::{self, Style};
+use crate::shell::write_atomic;
+use crate::Failure;
+
+const W: u32 = 720;
+const H: u32 = 380;
+const DARK: RGBColor = RGBColor(40, 40, 40);
+const MID: RGBColor = RGBColor(120, 120, 120);
+const LIGHT: RGBColor = RGBColor(200, 200, 200);
+
+fn perr<E: std::fmt::Debug>(e: E) -> String {
+    format!("cannot draw the plot: {e:?}")
+}
+
+/// A file name part from a name (letters, digits, `_`).
+fn slug(s: &str) -> String {
+    s.chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect()
+}
+
+/// Bar chart of the shares of u²(y).
+fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String> {
+    let mut labels: Vec<String> = r.budget.iter().map(|b| b.input.clone()).collect();
+    let mut shares: Vec<f64> = r.budget.iter().map(|b| 100.0 * b.share).collect();
+    for c in &r.correlation_budget {
+        labels.push(format!("r({},{})", c.inputs[0], c.inputs[1]));
+        shares.push(100.0 * c.share);
+    }
+    let n = labels.len().max(1);
+    let hi = shares.iter().cloned().fold(0.0, f64::max).max(1.0) * 1.1;
+    let lo = shares.iter().cloned().fold(0.0, f64::min).min(0.0) * 1.1;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (W, H)).into_drawing_area();
+        root.fill(&WHITE).map_err(perr)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!("contributions to u²({})", r.name),
+                ("sans-serif", 18),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(60)
+            .build_cartesian_2d(-0.5f64..(n as f64 - 0.5), lo..hi)
+            .map_err(perr)?;
+        let names = labels.clone();
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .x_labels(n)
+            .x_label_formatter(&|x| {
+                let i = x.round();
+                if (x - i).abs() < 1e-6 && i >= 0.0 {
+                    names.get(i as usize).cloned().unwrap_or_default()
+                } else {
+                    String::new()
+                }
+            })
+            .x_desc("input quantity (and correlation terms)")
+            .y_desc("share of u² / %")
+            .draw()
+            .map_err(perr)?;
+        chart
+            .draw_series(shares.iter().enumerate().map(|(i, &v)| {
+                let x = i as f64;
+                Rectangle::new([(x - 0.35, 0.0), (x + 0.35, v)], MID.filled())
+            }))
+            .map_err(perr)?;
+        root.present().map_err(perr)?;
+    }
+    Ok(svg)
+}
+
+/// The Monte Carlo histogram with the first-order distribution and both
+/// coverage intervals.
+fn monte_carlo_svg(
+    r: &incertus_gum::MeasurandResult,
+    m: &incertus_mc::McMeasurand,
+) -> Result<String, String> {
+    let h = &m.histogram;
+    let total = (h.counts.iter().sum::<u64>() + h.below + h.above).max(1) as f64;
+    let w = (h.edges[1] - h.edges[0]).max(f64::MIN_POSITIVE);
+    let dens: Vec<f64> = h.counts.iter().map(|c| *c as f64 / (total * w)).collect();
+    let (x0, x1) = (h.edges[0], *h.edges.last().expect("edges"));
+    let first_order = |x: f64| -> f64 {
+        let u = r.standard_uncertainty.max(f64::MIN_POSITIVE);
+        match r.effective_dof_used {
+            Some(nu) => StudentsT::new(r.value, u, nu)
+                .map(|d| d.pdf(x))
+                .unwrap_or(0.0),
+            None => Normal::new(r.value, u).map(|d| d.pdf(x)).unwrap_or(0.0),
+        }
+    };
+    let curve: Vec<(f64, f64)> = (0..=200)
+        .map(|i| x0 + (x1 - x0) * i as f64 / 200.0)
+        .map(|x| (x, first_order(x)))
+        .collect();
+    let ymax = dens
+        .iter()
+        .cloned()
+        .chain(curve.iter().map(|p| p.1))
+        .fold(0.0, f64::max)
+        * 1.15;
+    let unit = r
+        .unit
+        .as_ref()
+        .map(|u| format!(" / {u}"))
+        .unwrap_or_default();
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (W, H)).into_drawing_area();
+        root.fill(&WHITE).map_err(perr)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!(
+                    "{}: Monte Carlo ({} trials) and first order",
+                    r.name, m.trials
+                ),
+                ("sans-serif", 18),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, 0.0..ymax.max(f64::MIN_POSITIVE))
+            .map_err(perr)?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("{}{unit}", r.name))
+            .y_desc("probability density")
+            .draw()
+            .map_err(perr)?;
+        chart
+            .draw_series(dens.iter().enumerate().map(|(i, &d)| {
+                Rectangle::new([(h.edges[i], 0.0), (h.edges[i + 1], d)], LIGHT.filled())
+            }))
+            .map_err(perr)?
+            .label("Monte Carlo trials")
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 16, y + 5)], LIGHT.filled()));
+        chart
+            .draw_series(LineSeries::new(curve, DARK.stroke_width(2)))
+            .map_err(perr)?
+            .label("first order (Gaussian or scaled t)")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], DARK.stroke_width(2)));
+        let vline = |x: f64| vec![(x, 0.0), (x, ymax * 0.95)];
+        for (iv, style, label) in [
+            (
+                m.symmetric_interval,
+                DARK.stroke_width(1),
+                "probabilistically symmetric interval",
+            ),
+            (
+                m.shortest_interval,
+                MID.stroke_width(3),
+                "shortest interval",
+            ),
+        ] {
+            chart
+                .draw_series(
+                    [iv[0], iv[1]]
+                        .into_iter()
+                        .map(|x| PathElement::new(vline(x), style)),
+                )
+                .map_err(perr)?
+                .label(label)
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], style));
+        }
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(MID)
+            .draw()
+            .map_err(perr)?;
+        root.present().map_err(perr)?;
+    }
+    Ok(svg)
+}
+
+/// u(ŷ) at x from the parameters' covariance (g = 1, x, x², ...).
+fn u_fit(f: &FitResult, x: f64) -> f64 {
+    let p = f.parameters.len();
+    let g: Vec<f64> = (0..p).map(|k| x.powi(k as i32)).collect();
+    let mut s = 0.0;
+    for i in 0..p {
+        for j in 0..p {
+            s += g[i] * f.covariance[i][j] * g[j];
+        }
+    }
+    s.max(0.0).sqrt()
+}
+
+fn yhat(f: &FitResult, x: f64) -> f64 {
+    f.parameters
+        .iter()
+        .rev()
+        .fold(0.0, |acc, p| acc * x + p.value)
+}
+
+fn fit_svgs(
+    name: &str,
+    xname: &str,
+    yname: &str,
+    f: &FitResult,
+) -> Result<(String, String), String> {
+    let xs: Vec<f64> = f.points.iter().map(|p| p.x).collect();
+    let ys: Vec<f64> = f.points.iter().map(|p| p.y).collect();
+    let (mut x0, mut x1) = xs
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
+    if x1.partial_cmp(&x0) != Some(std::cmp::Ordering::Greater) {
+        x0 -= 1.0;
+        x1 += 1.0;
+    }
+    let pad = 0.05 * (x1 - x0);
+    let (x0, x1) = (x0 - pad, x1 + pad);
+    let line: Vec<(f64, f64)> = (0..=200)
+        .map(|i| x0 + (x1 - x0) * i as f64 / 200.0)
+        .map(|x| (x, yhat(f, x)))
+        .collect();
+    let band_hi: Vec<(f64, f64)> = line
+        .iter()
+        .map(|&(x, y)| (x, y + 2.0 * u_fit(f, x)))
+        .collect();
+    let band_lo: Vec<(f64, f64)> = line
+        .iter()
+        .map(|&(x, y)| (x, y - 2.0 * u_fit(f, x)))
+        .collect();
+    let (mut y0, mut y1) = ys
+        .iter()
+        .chain(band_hi.iter().map(|p| &p.1))
+        .chain(band_lo.iter().map(|p| &p.1))
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &y| {
+            (a.min(y), b.max(y))
+        });
+    if y1.partial_cmp(&y0) != Some(std::cmp::Ordering::Greater) {
+        y0 -= 1.0;
+        y1 += 1.0;
+    }
+    let ypad = 0.05 * (y1 - y0);
+    let mut data = String::new();
+    {
+        let root = SVGBackend::with_string(&mut data, (W, H)).into_drawing_area();
+        root.fill(&WHITE).map_err(perr)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!("fit {name}: {yname} against {xname}"),
+                ("sans-serif", 18),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, (y0 - ypad)..(y1 + ypad))
+            .map_err(perr)?;
+        chart
+            .configure_mesh()
+            .x_desc(xname)
+            .y_desc(yname)
+            .draw()
+            .map_err(perr)?;
+        let mut poly: Vec<(f64, f64)> = band_hi.clone();
+        poly.extend(band_lo.iter().rev().cloned());
+        chart
+            .draw_series(std::iter::once(Polygon::new(poly, LIGHT.filled())))
+            .map_err(perr)?
+            .label("band ± 2 u(ŷ)")
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 16, y + 5)], LIGHT.filled()));
+        chart
+            .draw_series(LineSeries::new(line, DARK.stroke_width(2)))
+            .map_err(perr)?
+            .label("fitted line")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], DARK.stroke_width(2)));
+        chart
+            .draw_series(
+                f.points
+                    .iter()
+                    .filter(|p| !p.excluded && !p.flagged)
+                    .map(|p| Circle::new((p.x, p.y), 4, DARK.filled())),
+            )
+            .map_err(perr)?
+            .label("point")
+            .legend(|(x, y)| Circle::new((x + 8, y), 4, DARK.filled()));
+        chart
+            .draw_series(
+                f.points
+                    .iter()
+                    .filter(|p| p.flagged && !p.excluded)
+                    .map(|p| TriangleMarker::new((p.x, p.y), 7, DARK.filled())),
+            )
+            .map_err(perr)?
+            .label("flagged point")
+            .legend(|(x, y)| TriangleMarker::new((x + 8, y), 7, DARK.filled()));
+        chart
+            .draw_series(
+                f.points
+                    .iter()
+                    .filter(|p| p.excluded)
+                    .map(|p| Cross::new((p.x, p.y), 6, DARK.stroke_width(2))),
+            )
+            .map_err(perr)?
+            .label("excluded point")
+            .legend(|(x, y)| Cross::new((x + 8, y), 6, DARK.stroke_width(2)));
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(MID)
+            .draw()
+            .map_err(perr)?;
+        root.present().map_err(perr)?;
+    }
+    let res: Vec<f64> = f.points.iter().map(|p| p.residual).collect();
+    let rmax = res
+        .iter()
+        .fold(0.0f64, |m, r| m.max(r.abs()))
+        .max(f64::MIN_POSITIVE)
+        * 1.2;
+    let mut resid = String::new();
+    {
+        let root = SVGBackend::with_string(&mut resid, (W, H)).into_drawing_area();
+        root.fill(&WHITE).map_err(perr)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(format!("fit {name}: residuals"), ("sans-serif", 18))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, -rmax..rmax)
+            .map_err(perr)?;
+        chart
+            .configure_mesh()
+            .x_desc(xname)
+            .y_desc(format!("residual of {yname}"))
+            .draw()
+            .map_err(perr)?;
+        chart
+            .draw_series(LineSeries::new(vec![(x0, 0.0), (x1, 0.0)], MID))
+            .map_err(perr)?;
+        chart
+            .draw_series(
+                f.points
+                    .iter()
+                    .filter(|p| !p.excluded && !p.flagged)
+                    .map(|p| Circle::new((p.x, p.residual), 4, DARK.filled())),
+            )
+            .map_err(perr)?;
+        chart
+            .draw_series(
+                f.points
+                    .iter()
+                    .filter(|p| p.flagged && !p.excluded)
+                    .map(|p| TriangleMarker::new((p.x, p.residual), 7, DARK.filled())),
+            )
+            .map_err(perr)?;
+        chart
+            .draw_series(
+                f.points
+                    .iter()
+                    .filter(|p| p.excluded)
+                    .map(|p| Cross::new((p.x, p.residual), 6, DARK.stroke_width(2))),
+            )
+            .map_err(perr)?;
+        root.present().map_err(perr)?;
+    }
+    Ok((data, resid))
+}
+
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
+/// Write the report folder.
+pub fn write_report(
+    dir: &Path,
+    force: bool,
+    report: &Report,
+    mc: Option<&McReport>,
+    extra_fits: &[(String, String, String, FitResult)],
+    style: Style,
+) -> Result<Vec<String>, Failure> {
+    if dir.exists() {
+        let empty = std::fs::read_dir(dir)
+            .map(|mut d| d.next().is_none())
+            .unwrap_or(false);
+        if !dir.is_dir() {
+            return Err(Failure::input(format!(
+                "{} exists and is not a folder",
+                dir.display()
+            )));
+        }
+        if !empty && !force {
+            return Err(Failure::input(format!(
+                "the report folder {} exists and is not empty; choose another, or give --force to replace its report files",
+                dir.display()
+            )));
+        }
+    }
+    std::fs::create_dir_all(dir)
+        .map_err(|e| Failure::input(format!("cannot create {}: {e}", dir.display())))?;
+    let mut files: Vec<(String, String)> = Vec::new();
+    let mut plots: Vec<(String, String, String)> = Vec::new(); // (file, title, svg)
+    for r in &report.results {
+        plots.push((
+            format!("contributions_{}.svg", slug(&r.name)),
+            format!("Contributions to u²({})", r.name),
+            contributions_svg(r).map_err(Failure::input)?,
+        ));
+        if let Some(m) = mc.and_then(|mc| mc.results.iter().find(|m| m.name == r.name)) {
+            plots.push((
+                format!("monte_carlo_{}.svg", slug(&r.name)),
+                format!("Propagation of distributions for {}", r.name),
+                monte_carlo_svg(r, m).map_err(Failure::input)?,
+            ));
+        }
+    }
+    let mut fits: Vec<(String, String, String, &FitResult)> = report
+        .fits
+        .iter()
+        .map(|f| (f.name.clone(), f.x.clone(), f.y.clone(), &f.result))
+        .collect();
+    fits.extend(
+        extra_fits
+            .iter()
+            .map(|(n, x, y, f)| (n.clone(), x.clone(), y.clone(), f)),
+    );
+    for (name, x, y, f) in &fits {
+        let (data, resid) = fit_svgs(name, x, y, f).map_err(Failure::input)?;
+        plots.push((
+            format!("fit_{}.svg", slug(name)),
+            format!("Fit {name}: data, line and band"),
+            data,
+        ));
+        plots.push((
+            format!("residuals_{}.svg", slug(name)),
+            format!("Fit {name}: residuals"),
+            resid,
+        ));
+    }
+    let text = report::text(report, style, mc);
+    let md = report::markdown(report, style, mc);
+    let json = report::json(report, mc);
+    let csv = report::csv(report);
+    let title = report
+        .title
+        .clone()
+        .unwrap_or_else(|| "Uncertainty evaluation".into());
+    let mut html = format!(
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n<title>{}</title>\n<style>\n\
+         body {{ font-family: sans-serif; color: #222; max-width: 60em; margin: 2em auto; padding: 0 1em; }}\n\
+         pre {{ background: #f4f4f4; padding: 0.8em; overflow-x: auto; font-size: 0.85em; }}\n\
+         figure {{ margin: 1.5em 0; }} figcaption {{ color: #555; font-size: 0.9em; }}\n\
+         svg {{ max-width: 100%; height: auto; }}\n</style>\n</head>\n<body>\n<h1>{}</h1>\n\
+         <p>Written by incertus {} (evaluation of measurement uncertainty by JCGM 100:2008{}). \
+         Results are an aid to, not a substitute for, the laboratory's validation of its methods and its quality system.</p>\n",
+        esc(&title),
+        esc(&title),
+        env!("CARGO_PKG_VERSION"),
+        if mc.is_some() { " and JCGM 101:2008" } else { "" }
+    );
+    html.push_str("<h2>Inputs, budget and result</h2>\n<pre>");
+    html.push_str(&esc(&text));
+    html.push_str("</pre>\n<h2>Plots</h2>\n");
+    for (file, caption, svg) in &plots {
+        html.push_str(&format!(
+            "<figure>\n{}\n<figcaption>{} ({})</figcaption>\n</figure>\n",
+            svg.trim(),
+            esc(caption),
+            esc(file)
+        ));
+    }
+    html.push_str("</body>\n</html>\n");
+    files.push(("report.html".into(), html));
+    files.push(("report.md".into(), md));
+    files.push(("budget.csv".into(), csv));
+    files.push(("result.json".into(), json));
+    for (file, _, svg) in plots {
+        files.push((file, svg));
+    }
+    let mut written = Vec::new();
+    for (name, contents) in &files {
+        let p = dir.join(name);
+        write_atomic(&p, contents)
+            .map_err(|e| Failure::input(format!("cannot write {}: {e}", p.display())))?;
+        written.push(name.clone());
+    }
+    Ok(written)
+}
