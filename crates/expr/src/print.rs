@@ -73,11 +73,18 @@ fn prec(e: &Expr) -> Prec {
 /// same value bit for bit (negation is exact), so a negated product whose
 /// first factor needs no parentheses prints bare and binds like a product;
 /// any other operand is parenthesised unless it binds at least as tightly as
-/// a unary minus. Keeping to this makes printing stable:
+/// a unary minus; a first factor that is a sum prints in parentheses
+/// anyway (`-(a - b)/c`). Keeping to this makes printing stable:
 /// `print(parse(print(e))) == print(e)`.
 fn after_minus(a: &Expr) -> Prec {
     match &a.kind {
-        Kind::Product(fs) if fs[0].divide || prec(&fs[0].expr) >= Prec::Unary => Prec::Product,
+        Kind::Product(fs)
+            if fs[0].divide
+                || prec(&fs[0].expr) >= Prec::Unary
+                || matches!(fs[0].expr.kind, Kind::Sum(_)) =>
+        {
+            Prec::Product
+        }
         Kind::Neg(_) if prec(a) == Prec::Product => Prec::Product,
         _ => Prec::Unary,
     }
