@@ -12,6 +12,7 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 mod derive_cmd;
+mod dipole_cmd;
 mod eval_cmd;
 mod files;
 mod fit_cmd;
@@ -47,6 +48,12 @@ enum Command {
     Fit(fit_cmd::FitArgs),
     /// Type uncertain values and formulas at a prompt (or pipe statements in)
     Shell(shell::ShellArgs),
+    /// Dipole moment from dilute-solution series (Guggenheim-Smith). Caution: organic solvents are
+    /// flammable and many are toxic; follow the safety data sheets and local rules
+    Dipole(dipole_cmd::DipoleArgs),
+    /// Run the worked instance end to end on built-in INVENTED data: budget, dipole moment in debye,
+    /// Monte Carlo validation, and a report folder
+    Demo(dipole_cmd::DemoArgs),
 }
 
 /// An error a command reports: the text to print and the exit code.
@@ -103,6 +110,8 @@ where
         Command::Check(a) => eval_cmd::run_check(&a, out),
         Command::Fit(a) => fit_cmd::run(&a, out),
         Command::Shell(a) => shell::run(&a, out),
+        Command::Dipole(a) => dipole_cmd::run_dipole(&a, out),
+        Command::Demo(a) => dipole_cmd::run_demo(&a, out),
     };
     match result {
         Ok(()) => 0,

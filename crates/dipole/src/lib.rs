@@ -1,0 +1,348 @@
+//! Electric dipole moments of polar solutes from how the relative
+//! permittivity and the refractive index of dilute solutions in a non-polar
+//! solvent change with the solute's weight fraction w₂: the method of
+//! E. A. Guggenheim (Trans. Faraday Soc. 45, 714 (1949)) and J. W. Smith
+//! (Trans. Faraday Soc. 46, 394 (1950)); references recalled from memory.
+//!
+//! # The formula
+//!
+//! Debye's equation for the molar polarization of a substance of molar mass
+//! M and density ρ in SI units is
+//! (ε − 1)/(ε + 2) · M/ρ = N_A/(3ε₀) · (α + μ²/(3 k_B T)),
+//! and the Lorentz-Lorenz equation gives the distortion part alone from the
+//! refractive index: (n² − 1)/(n² + 2) · M/ρ = N_A α/(3ε₀) (at optical
+//! frequencies the permanent dipoles cannot follow). Subtracting, the
+//! orientation polarization of the solute at infinite dilution is
+//! P_or = N_A μ²/(9 ε₀ k_B T). Guggenheim's insight is that for a dilute
+//! solution the density changes of the two terms cancel to first order, so
+//! only the gradients a_ε = dε₁₂/dw₂ and a_n = d(n₁₂²)/dw₂ are needed:
+//! differentiating (ε₁₂ − n₁₂²)/((ε₁₂ + 2)(n₁₂² + 2)) with ε₁ ≈ n₁² for a
+//! non-polar solvent gives, per unit mass of solute,
+//! P_or/M₂ = 3 (a_ε − a_n)/(ρ₁ (ε₁ + 2)²), and so
+//!
+//! μ² = 27 ε₀ k_B T M₂ (a_ε − a_n) / (N_A ρ₁ (ε₁ + 2)²).
+//!
+//! Dimensions: F m⁻¹ · J K⁻¹ · K · kg mol⁻¹ / (mol⁻¹ · kg m⁻³) = F J m² =
+//! C² m², so μ is in C m; the model is evaluated with the dimension check of
+//! the units crate, and reported in debye (1 D = 10⁻²¹/c C m).
+//!
+//! The gradients come from least-squares lines of ε₁₂ and of n₁₂² against
+//! w₂ (the fits crate: dof, covariance, diagnostics, exclusions); every other
+//! input (temperature, solvent permittivity and density, molar mass) carries
+//! a Type B uncertainty, the constants theirs from the CODATA table.
+//!
+//! Left out: the Halverstadt-Kumler method (it needs solution densities as
+//! well; not implemented yet), and the 2·n₁·dn/dw₂ approximation of a_n.
+
+use std::path::Path;
+
+use serde::Deserialize;
+
+/// A quantity with its standard uncertainty and unit.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Quantity {
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub unit: Option<String>,
+}
+
+/// The series and the data of solvent, solute and conditions.
+#[derive(Clone, Debug)]
+pub struct Problem {
+    pub title: String,
+    /// Solute weight fractions, permittivities and squared refractive
+    /// indices of the solutions, with their 1-based data rows.
+    pub w2: Vec<f64>,
+    pub eps12: Vec<f64>,
+    pub n12_squared: Vec<f64>,
+    pub rows: Vec<usize>,
+    pub solvent_permittivity: Quantity,
+    pub solvent_density: Quantity,
+    pub molar_mass: Quantity,
+    pub temperature: Quantity,
+    pub exclude: Vec<usize>,
+    pub exclude_reason: Option<String>,
+}
+
+fn q_keys(q: &Quantity) -> String {
+    let mut s = format!(
+        "value = {:?}\nstandard_uncertainty = {:?}\n",
+        q.value, q.standard_uncertainty
+    );
+    if let Some(u) = &q.unit {
+        s.push_str(&format!("unit = {}\n", incertus_gum::builder::text(u)));
+    }
+    s
+}
+
+fn list(v: &[f64]) -> String {
+    format!(
+        "[{}]",
+        v.iter()
+            .map(|x| format!("{x:?}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    )
+}
+
+/// The measurement model of the problem as a model file for the law of
+/// propagation (two inline fits, the inputs, the constants, μ in debye).
+pub fn model_text(p: &Problem) -> String {
+    let exclude = if p.exclude.is_empty() {
+        String::new()
+    } else {
+        format!(
+            "exclude = [{}]\nexclude_reason = {}\n",
+            p.exclude
+                .iter()
+                .map(|r| r.to_string())
+                .collect::<Vec<_>>()
+                .join(", "),
+            incertus_gum::builder::text(p.exclude_reason.as_deref().unwrap_or("excluded"))
+        )
+    };
+    format!(
+        "title = {title}\n\n\
+         [fits.permittivity]\nx = {w}\ny = {e}\n{exclude}\n\
+         [fits.refraction]\nx = {w}\ny = {n}\n{exclude}\n\
+         [inputs.a_eps]\ndescription = \"gradient of the solution permittivity against w2\"\nfit = \"permittivity\"\nparameter = \"slope\"\n\n\
+         [inputs.a_n]\ndescription = \"gradient of the squared refractive index against w2\"\nfit = \"refraction\"\nparameter = \"slope\"\n\n\
+         [inputs.eps1]\ndescription = \"relative permittivity of the solvent\"\n{eps1}\n\
+         [inputs.rho1]\ndescription = \"density of the solvent\"\n{rho1}\n\
+         [inputs.M2]\ndescription = \"molar mass of the solute\"\n{m2}\n\
+         [inputs.T]\ndescription = \"temperature of the solutions\"\n{t}\n\
+         [inputs.epsilon_0]\nconstant = \"epsilon_0\"\n\n[inputs.k_B]\nconstant = \"k_B\"\n\n[inputs.N_A]\nconstant = \"N_A\"\n\n\
+         [[measurands]]\nname = \"mu\"\nunit = \"D\"\ndescription = \"electric dipole moment of the solute (Guggenheim-Smith)\"\n\
+         formula = \"sqrt(27*epsilon_0*k_B*T*M2*(a_eps - a_n)/(N_A*rho1*(eps1 + 2)^2))\"\n",
+        title = incertus_gum::builder::text(&p.title),
+        w = list(&p.w2),
+        e = list(&p.eps12),
+        n = list(&p.n12_squared),
+        eps1 = q_keys(&p.solvent_permittivity),
+        rho1 = q_keys(&p.solvent_density),
+        m2 = q_keys(&p.molar_mass),
+        t = q_keys(&p.temperature),
+    )
+}
+
+/// The model, checked: errors for what makes the method meaningless,
+/// warnings for what a reader should look at.
+pub struct Checked {
+    pub model: incertus_gum::Model,
+    pub warnings: Vec<String>,
+}
+
+/// Build and check the model of a problem.
+pub fn build(p: &Problem) -> Result<Checked, String> {
+    let n = p.w2.len();
+    if p.eps12.len() != n || p.n12_squared.len() != n {
+        return Err("the series have different lengths".into());
+    }
+    let mut warnings = Vec::new();
+    if let Some(w) =
+        p.w2.iter()
+            .cloned()
+            .fold(None, |m: Option<f64>, w| Some(m.map_or(w, |m| m.max(w))))
+    {
+        if w > 0.1 {
+            warnings.push(format!(
+                "weight fractions reach {w}: beyond about 0.1 the solutions are no longer dilute and the \
+                 gradients need not be constant (common practice, no published source)"
+            ));
+        }
+    }
+    let model =
+        incertus_gum::load_str(&model_text(p), "<dipole model>").map_err(|e| e.to_string())?;
+    let slope = |name: &str| {
+        model
+            .input(name)
+            .map(|i| (i.estimate, i.standard_uncertainty))
+    };
+    let (ae, ue) = slope("a_eps").ok_or("the permittivity fit is missing")?;
+    let (an, un) = slope("a_n").ok_or("the refraction fit is missing")?;
+    if ae - an <= 0.0 {
+        return Err(format!(
+            "a_eps − a_n = {:.4} − {:.4} ≤ 0 (u = {:.2e}, {:.2e}): the permittivity rises no faster than the squared \
+             refractive index, so the data show no orientation polarization and no dipole moment can be derived",
+            ae, an, ue, un
+        ));
+    }
+    // The intercept of ε12 against w2 should be the solvent's permittivity.
+    if let Some(f) = model.fits.iter().find(|f| f.name == "permittivity") {
+        let c0 = &f.result.parameters[0];
+        let e1 = &p.solvent_permittivity;
+        let z = (c0.value - e1.value).abs()
+            / (c0.standard_uncertainty.powi(2) + e1.standard_uncertainty.powi(2)).sqrt();
+        if z > 2.0 {
+            warnings.push(format!(
+                "the fitted intercept of ε12 at w2 = 0 ({:.5} ± {:.5}) differs from the stated solvent permittivity \
+                 ({} ± {}) by {:.1} combined standard uncertainties",
+                c0.value, c0.standard_uncertainty, e1.value, e1.standard_uncertainty, z
+            ));
+        }
+    }
+    // Curvature: the quadratic coefficient of ε12 against w2.
+    let keep: Vec<bool> = p.rows.iter().map(|r| !p.exclude.contains(r)).collect();
+    let pick = |v: &[f64]| -> Vec<f64> {
+        v.iter()
+            .zip(&keep)
+            .filter(|(_, k)| **k)
+            .map(|(x, _)| *x)
+            .collect()
+    };
+    for (name, ys) in [("ε12", &p.eps12), ("n12²", &p.n12_squared)] {
+        let (x, y) = (pick(&p.w2), pick(ys));
+        if x.len() >= 4 {
+            let rows: Vec<usize> = (1..=x.len()).collect();
+            if let Ok(q) = incertus_fit::fit_polynomial(&x, &y, None, &rows, 2, false) {
+                let c2 = &q.parameters[2];
+                if c2.value.abs() > 3.0 * c2.standard_uncertainty {
+                    warnings.push(format!(
+                        "the {name} series is curved (quadratic coefficient {:.3} ± {:.3}): the limiting gradient of a \
+                         straight line may be biased; consider lower weight fractions",
+                        c2.value, c2.standard_uncertainty
+                    ));
+                }
+            }
+        }
+    }
+    Ok(Checked { model, warnings })
+}
+
+/// The input file of `incertus dipole`: TOML naming a CSV series.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct File {
+    title: Option<String>,
+    series: SeriesSpec,
+    solvent: Solvent,
+    solute: Solute,
+    conditions: Conditions,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SeriesSpec {
+    data: String,
+    weight_fraction: String,
+    permittivity: String,
+    refractive_index: Option<String>,
+    refractive_index_squared: Option<String>,
+    #[serde(default)]
+    exclude: Vec<usize>,
+    exclude_reason: Option<String>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct Solvent {
+    permittivity: Quantity,
+    density: Quantity,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct Solute {
+    molar_mass: Quantity,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct Conditions {
+    temperature: Quantity,
+}
+
+/// Read a problem from its TOML file (the CSV path relative to it).
+pub fn read_problem(path: &Path) -> Result<Problem, String> {
+    let file = path.display().to_string();
+    let text =
+        std::fs::read_to_string(path).map_err(|e| format!("{file}: cannot read the file: {e}"))?;
+    let f: File = toml::from_str(&text).map_err(|e| format!("{file}: {e}"))?;
+    let (ncol, squared) =
+        match (
+            &f.series.refractive_index,
+            &f.series.refractive_index_squared,
+        ) {
+            (Some(c), None) => (c.clone(), false),
+            (None, Some(c)) => (c.clone(), true),
+            _ => return Err(format!(
+                "{file}: [series] needs refractive_index or refractive_index_squared (one of them)"
+            )),
+        };
+    let data = path.parent().unwrap_or(Path::new("")).join(&f.series.data);
+    let cols = incertus_fit::read_columns(
+        &data,
+        &[&f.series.weight_fraction, &f.series.permittivity, &ncol],
+    )
+    .map_err(|e| e.0)?;
+    let n12_squared = if squared {
+        cols.columns[2].clone()
+    } else {
+        cols.columns[2].iter().map(|n| n * n).collect()
+    };
+    if !f.series.exclude.is_empty() && f.series.exclude_reason.is_none() {
+        return Err(format!("{file}: [series] exclude needs exclude_reason"));
+    }
+    Ok(Problem {
+        title: f.title.unwrap_or_else(|| "Dipole moment".into()),
+        w2: cols.columns[0].clone(),
+        eps12: cols.columns[1].clone(),
+        n12_squared,
+        rows: cols.rows,
+        solvent_permittivity: f.solvent.permittivity,
+        solvent_density: f.solvent.density,
+        molar_mass: f.solute.molar_mass,
+        temperature: f.conditions.temperature,
+        exclude: f.series.exclude,
+        exclude_reason: f.series.exclude_reason,
+    })
+}
+
+/// The built-in demonstration: INVENTED data for chlorobenzene in
+/// cyclohexane at 25 °C (see `tests/fixtures/make_dipole_demo.py`).
+pub fn demo_problem() -> Problem {
+    let text = include_str!("../data/demo_series.csv");
+    let mut w2 = Vec::new();
+    let mut eps12 = Vec::new();
+    let mut n2 = Vec::new();
+    for line in text.lines().filter(|l| !l.starts_with('#')).skip(1) {
+        let v: Vec<f64> = line
+            .split(',')
+            .map(|c| c.trim().parse().expect("the embedded data are numbers"))
+            .collect();
+        w2.push(v[0]);
+        eps12.push(v[1]);
+        n2.push(v[2] * v[2]);
+    }
+    let rows = (1..=w2.len()).collect();
+    Problem {
+        title: "Dipole moment of chlorobenzene in cyclohexane (INVENTED demonstration data)".into(),
+        w2,
+        eps12,
+        n12_squared: n2,
+        rows,
+        solvent_permittivity: Quantity {
+            value: 2.015,
+            standard_uncertainty: 0.002,
+            unit: None,
+        },
+        solvent_density: Quantity {
+            value: 0.7739,
+            standard_uncertainty: 0.0002,
+            unit: Some("g/cm^3".into()),
+        },
+        molar_mass: Quantity {
+            value: 112.56,
+            standard_uncertainty: 0.01,
+            unit: Some("g/mol".into()),
+        },
+        temperature: Quantity {
+            value: 25.0,
+            standard_uncertainty: 0.1,
+            unit: Some("degC".into()),
+        },
+        exclude: Vec::new(),
+        exclude_reason: None,
+    }
+}
