@@ -31,8 +31,17 @@
 //! input (temperature, solvent permittivity and density, molar mass) carries
 //! a Type B uncertainty, the constants theirs from the CODATA table.
 //!
-//! Left out: the Halverstadt-Kumler method (it needs solution densities as
-//! well; not implemented yet), and the 2·n₁·dn/dw₂ approximation of a_n.
+//! When the densities of the solutions are measured too, the method of
+//! I. F. Halverstadt and W. D. Kumler (J. Am. Chem. Soc. 64, 2988 (1942),
+//! recalled from memory) is reported beside: with the specific volume
+//! v₁₂ = v₁ + β w₂ (v = 1/ρ),
+//! P₂∞ = 3 a_ε v₁ M₂/(ε₁ + 2)² + (v₁ + β)(ε₁ − 1)/(ε₁ + 2) M₂,
+//! R₂∞ = 3 a_n v₁ M₂/(n₁² + 2)² + (v₁ + β)(n₁² − 1)/(n₁² + 2) M₂,
+//! μ² = 9 ε₀ k_B T (P₂∞ − R₂∞)/N_A. With β = 0 and ε₁ = n₁² it reduces to
+//! the Guggenheim-Smith expression, so the two agreeing shows that the
+//! density simplification holds.
+//!
+//! Left out: the 2·n₁·dn/dw₂ approximation of a_n.
 
 use std::path::Path;
 
@@ -63,6 +72,10 @@ pub struct Problem {
     pub temperature: Quantity,
     pub exclude: Vec<usize>,
     pub exclude_reason: Option<String>,
+    /// For the Halverstadt-Kumler method: densities of the solutions (in the
+    /// unit of the solvent density) and the solvent's refractive index.
+    pub density12: Option<Vec<f64>>,
+    pub solvent_refractive_index: Option<Quantity>,
 }
 
 fn q_keys(q: &Quantity) -> String {
@@ -102,6 +115,30 @@ pub fn model_text(p: &Problem) -> String {
             incertus_gum::builder::text(p.exclude_reason.as_deref().unwrap_or("excluded"))
         )
     };
+    let hk = match (&p.density12, &p.solvent_refractive_index) {
+        (Some(rho), Some(n1)) => {
+            // Specific volumes in m³/kg from densities in the solvent's unit.
+            let f = p
+                .solvent_density
+                .unit
+                .as_deref()
+                .and_then(|u| incertus_gum::units_factor(u))
+                .unwrap_or(1.0);
+            let v: Vec<f64> = rho.iter().map(|r| 1.0 / (r * f)).collect();
+            format!(
+                "[fits.volume]\nx = {w}\ny = {v}\nx_unit = \"1\"\ny_unit = \"m^3/kg\"\n{exclude}\n\
+                 [inputs.beta]\ndescription = \"gradient of the specific volume of the solutions against w2\"\nfit = \"volume\"\nparameter = \"slope\"\n\n\
+                 [inputs.n1]\ndescription = \"refractive index of the solvent\"\n{n1}\n\
+                 [[measurands]]\nname = \"mu_hk\"\nunit = \"D\"\ndescription = \"electric dipole moment of the solute (Halverstadt-Kumler)\"\n\
+                 formula = \"sqrt(9*epsilon_0*k_B*T/N_A*(3*a_eps*M2/(rho1*(eps1 + 2)^2) + (1/rho1 + beta)*(eps1 - 1)/(eps1 + 2)*M2 - 3*a_n*M2/(rho1*(n1^2 + 2)^2) - (1/rho1 + beta)*(n1^2 - 1)/(n1^2 + 2)*M2))\"\n",
+                w = list(&p.w2),
+                v = list(&v),
+                exclude = exclude,
+                n1 = q_keys(n1),
+            )
+        }
+        _ => String::new(),
+    };
     format!(
         "title = {title}\n\n\
          [fits.permittivity]\nx = {w}\ny = {e}\n{exclude}\n\
@@ -114,7 +151,7 @@ pub fn model_text(p: &Problem) -> String {
          [inputs.T]\ndescription = \"temperature of the solutions\"\n{t}\n\
          [inputs.epsilon_0]\nconstant = \"epsilon_0\"\n\n[inputs.k_B]\nconstant = \"k_B\"\n\n[inputs.N_A]\nconstant = \"N_A\"\n\n\
          [[measurands]]\nname = \"mu\"\nunit = \"D\"\ndescription = \"electric dipole moment of the solute (Guggenheim-Smith)\"\n\
-         formula = \"sqrt(27*epsilon_0*k_B*T*M2*(a_eps - a_n)/(N_A*rho1*(eps1 + 2)^2))\"\n",
+         formula = \"sqrt(27*epsilon_0*k_B*T*M2*(a_eps - a_n)/(N_A*rho1*(eps1 + 2)^2))\"\n\n{hk}",
         title = incertus_gum::builder::text(&p.title),
         w = list(&p.w2),
         e = list(&p.eps12),
@@ -123,6 +160,7 @@ pub fn model_text(p: &Problem) -> String {
         rho1 = q_keys(&p.solvent_density),
         m2 = q_keys(&p.molar_mass),
         t = q_keys(&p.temperature),
+        hk = hk,
     )
 }
 
@@ -229,6 +267,9 @@ struct SeriesSpec {
     permittivity: String,
     refractive_index: Option<String>,
     refractive_index_squared: Option<String>,
+    /// Densities of the solutions (for Halverstadt-Kumler), in the unit of
+    /// the solvent density.
+    density: Option<String>,
     #[serde(default)]
     exclude: Vec<usize>,
     exclude_reason: Option<String>,
@@ -239,6 +280,7 @@ struct SeriesSpec {
 struct Solvent {
     permittivity: Quantity,
     density: Quantity,
+    refractive_index: Option<Quantity>,
 }
 
 #[derive(Deserialize)]
@@ -259,17 +301,18 @@ pub fn read_problem(path: &Path) -> Result<Problem, String> {
     let text =
         std::fs::read_to_string(path).map_err(|e| format!("{file}: cannot read the file: {e}"))?;
     let f: File = toml::from_str(&text).map_err(|e| format!("{file}: {e}"))?;
-    let (ncol, squared) =
-        match (
-            &f.series.refractive_index,
-            &f.series.refractive_index_squared,
-        ) {
-            (Some(c), None) => (c.clone(), false),
-            (None, Some(c)) => (c.clone(), true),
-            _ => return Err(format!(
+    let (ncol, squared) = match (
+        &f.series.refractive_index,
+        &f.series.refractive_index_squared,
+    ) {
+        (Some(c), None) => (c.clone(), false),
+        (None, Some(c)) => (c.clone(), true),
+        _ => {
+            return Err(format!(
                 "{file}: [series] needs refractive_index or refractive_index_squared (one of them)"
-            )),
-        };
+            ))
+        }
+    };
     let data = path.parent().unwrap_or(Path::new("")).join(&f.series.data);
     let cols = incertus_fit::read_columns(
         &data,
@@ -296,6 +339,8 @@ pub fn read_problem(path: &Path) -> Result<Problem, String> {
         temperature: f.conditions.temperature,
         exclude: f.series.exclude,
         exclude_reason: f.series.exclude_reason,
+        density12: f.series.density.as_ref().map(|_| cols.columns[3].clone()),
+        solvent_refractive_index: f.solvent.refractive_index,
     })
 }
 
@@ -344,5 +389,7 @@ pub fn demo_problem() -> Problem {
         },
         exclude: Vec::new(),
         exclude_reason: None,
+        density12: None,
+        solvent_refractive_index: None,
     }
 }

@@ -47,6 +47,8 @@ fn synthetic(mu_d: f64, seed: u64, u_solvent: f64) -> Problem {
         temperature: q(t, u_solvent * 0.1, Some("K")),
         exclude: vec![],
         exclude_reason: None,
+        density12: None,
+        solvent_refractive_index: None,
     }
 }
 
@@ -158,5 +160,54 @@ fn validity_checks() {
         c.warnings.iter().any(|w| w.contains("intercept")),
         "{:?}",
         c.warnings
+    );
+}
+
+#[test]
+fn halverstadt_kumler_agrees_where_the_density_term_is_negligible() {
+    // Constant solution density (β = 0) and ε1 = n1²: the Halverstadt-Kumler
+    // expression reduces to Guggenheim-Smith's (see the crate docs), so the
+    // two results must agree closely.
+    let mut p = synthetic(1.69, 11, 1.0);
+    let n1 = 2.015f64.sqrt();
+    p.n12_squared = p.w2.iter().map(|w| n1 * n1 + 0.21 * w).collect();
+    p.density12 = Some(vec![773.9; p.w2.len()]);
+    p.solvent_refractive_index = Some(q(n1, 0.0001, None));
+    let c = build(&p).unwrap();
+    let r = propagate(&c.model, &Options::default()).unwrap();
+    let gs = r.results.iter().find(|x| x.name == "mu").unwrap();
+    let hk = r.results.iter().find(|x| x.name == "mu_hk").unwrap();
+    assert!(
+        (gs.value - hk.value).abs() < 0.2 * gs.standard_uncertainty,
+        "GS {} HK {}",
+        gs.value,
+        hk.value
+    );
+    // With ε1 ≠ n1² the density gradient enters Halverstadt-Kumler (through
+    // (v1 + β)[(ε1 − 1)/(ε1 + 2) − (n1² − 1)/(n1² + 2)]) but not
+    // Guggenheim-Smith.
+    p.solvent_refractive_index = Some(q(1.4235, 0.0001, None));
+    p.n12_squared = p.w2.iter().map(|w| 1.4235f64.powi(2) + 0.21 * w).collect();
+    let c = build(&p).unwrap();
+    let r = propagate(&c.model, &Options::default()).unwrap();
+    let gs = r.results.iter().find(|x| x.name == "mu").unwrap().clone();
+    let hk = r
+        .results
+        .iter()
+        .find(|x| x.name == "mu_hk")
+        .unwrap()
+        .clone();
+    p.density12 = Some(p.w2.iter().map(|w| 773.9 * (1.0 + 0.3 * w)).collect());
+    let c = build(&p).unwrap();
+    let r = propagate(&c.model, &Options::default()).unwrap();
+    let gs2 = r.results.iter().find(|x| x.name == "mu").unwrap();
+    let hk2 = r.results.iter().find(|x| x.name == "mu_hk").unwrap();
+    assert!(
+        (gs2.value - gs.value).abs() < 1e-12,
+        "GS does not use densities"
+    );
+    assert!(
+        (hk2.value - hk.value).abs() > 0.001,
+        "HK responds to the density gradient"
     );
 }

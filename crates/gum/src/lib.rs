@@ -44,6 +44,11 @@ pub mod rounding;
 pub mod typea;
 
 pub use check::{check, CheckItem, CheckReport};
+
+/// The factor of a unit to coherent SI, if the unit text is valid.
+pub fn units_factor(unit: &str) -> Option<f64> {
+    incertus_units::parse(unit).ok().map(|u| u.factor)
+}
 pub use load::{load_file, load_str, ModelError, MAX_FILE_BYTES};
 pub use model::{Correlation, Distribution, DofRounding, Evaluation, Input, Measurand, Model};
 pub use propagate::{propagate, BudgetLine, MeasurandResult, Options, PropagationError, Report};
