@@ -122,7 +122,7 @@ pub fn model_text(p: &Problem) -> String {
                 .solvent_density
                 .unit
                 .as_deref()
-                .and_then(|u| incertus_gum::units_factor(u))
+                .and_then(incertus_gum::units_factor)
                 .unwrap_or(1.0);
             let v: Vec<f64> = rho.iter().map(|r| 1.0 / (r * f)).collect();
             format!(
