@@ -41,7 +41,8 @@
 //! the Guggenheim-Smith expression, so the two agreeing shows that the
 //! density simplification holds.
 //!
-//! Left out: the 2·n₁·dn/dw₂ approximation of a_n.
+//! The older approximation a_n ≈ 2·n₁·dn₁₂/dw₂ (a line of n₁₂ rather than
+//! n₁₂² against w₂) is available only as an explicit option.
 
 use std::path::Path;
 
@@ -76,6 +77,10 @@ pub struct Problem {
     /// unit of the solvent density) and the solvent's refractive index.
     pub density12: Option<Vec<f64>>,
     pub solvent_refractive_index: Option<Quantity>,
+    /// Take a_n = 2·n₁·dn₁₂/dw₂ from a line of n₁₂ (not n₁₂²) against w₂,
+    /// an approximation offered only on request (needs the solvent's
+    /// refractive index).
+    pub approximate_n_gradient: bool,
 }
 
 fn q_keys(q: &Quantity) -> String {
@@ -139,12 +144,32 @@ pub fn model_text(p: &Problem) -> String {
         }
         _ => String::new(),
     };
+    let (n_series, a_n) = if p.approximate_n_gradient {
+        let n1 = p
+            .solvent_refractive_index
+            .as_ref()
+            .map(q_keys)
+            .unwrap_or_default();
+        (
+            p.n12_squared.iter().map(|v| v.sqrt()).collect::<Vec<f64>>(),
+            format!(
+                "[inputs.dn]\ndescription = \"gradient of the refractive index against w2\"\nfit = \"refraction\"\nparameter = \"slope\"\n\n\
+                 [inputs.n1]\ndescription = \"refractive index of the solvent\"\n{n1}\n\
+                 [[measurands]]\nname = \"a_n\"\ndescription = \"a_n approximated by 2 n1 dn/dw2 (on request)\"\nformula = \"2*n1*dn\"\n\n"
+            ),
+        )
+    } else {
+        (
+            p.n12_squared.clone(),
+            "[inputs.a_n]\ndescription = \"gradient of the squared refractive index against w2\"\nfit = \"refraction\"\nparameter = \"slope\"\n\n".to_string(),
+        )
+    };
     format!(
         "title = {title}\n\n\
          [fits.permittivity]\nx = {w}\ny = {e}\n{exclude}\n\
          [fits.refraction]\nx = {w}\ny = {n}\n{exclude}\n\
          [inputs.a_eps]\ndescription = \"gradient of the solution permittivity against w2\"\nfit = \"permittivity\"\nparameter = \"slope\"\n\n\
-         [inputs.a_n]\ndescription = \"gradient of the squared refractive index against w2\"\nfit = \"refraction\"\nparameter = \"slope\"\n\n\
+         {a_n}\
          [inputs.eps1]\ndescription = \"relative permittivity of the solvent\"\n{eps1}\n\
          [inputs.rho1]\ndescription = \"density of the solvent\"\n{rho1}\n\
          [inputs.M2]\ndescription = \"molar mass of the solute\"\n{m2}\n\
@@ -155,7 +180,8 @@ pub fn model_text(p: &Problem) -> String {
         title = incertus_gum::builder::text(&p.title),
         w = list(&p.w2),
         e = list(&p.eps12),
-        n = list(&p.n12_squared),
+        n = list(&n_series),
+        a_n = a_n,
         eps1 = q_keys(&p.solvent_permittivity),
         rho1 = q_keys(&p.solvent_density),
         m2 = q_keys(&p.molar_mass),
@@ -198,7 +224,16 @@ pub fn build(p: &Problem) -> Result<Checked, String> {
             .map(|i| (i.estimate, i.standard_uncertainty))
     };
     let (ae, ue) = slope("a_eps").ok_or("the permittivity fit is missing")?;
-    let (an, un) = slope("a_n").ok_or("the refraction fit is missing")?;
+    let (an, un) = match slope("a_n") {
+        Some(x) => x,
+        None => {
+            let (dn, udn) = slope("dn").ok_or("the refraction fit is missing")?;
+            let n1 = slope("n1")
+                .ok_or("the approximation 2·n1·dn/dw2 needs the solvent's refractive index")?
+                .0;
+            (2.0 * n1 * dn, 2.0 * n1 * udn)
+        }
+    };
     if ae - an <= 0.0 {
         return Err(format!(
             "a_eps − a_n = {:.4} − {:.4} ≤ 0 (u = {:.2e}, {:.2e}): the permittivity rises no faster than the squared \
@@ -270,6 +305,9 @@ struct SeriesSpec {
     /// Densities of the solutions (for Halverstadt-Kumler), in the unit of
     /// the solvent density.
     density: Option<String>,
+    /// Use a_n ≈ 2·n₁·dn/dw₂ (needs [solvent] refractive_index).
+    #[serde(default)]
+    approximate_n_gradient: bool,
     #[serde(default)]
     exclude: Vec<usize>,
     exclude_reason: Option<String>,
@@ -340,6 +378,7 @@ pub fn read_problem(path: &Path) -> Result<Problem, String> {
         exclude: f.series.exclude,
         exclude_reason: f.series.exclude_reason,
         density12: f.series.density.as_ref().map(|_| cols.columns[3].clone()),
+        approximate_n_gradient: f.series.approximate_n_gradient,
         solvent_refractive_index: f.solvent.refractive_index,
     })
 }
@@ -391,5 +430,6 @@ pub fn demo_problem() -> Problem {
         exclude_reason: None,
         density12: None,
         solvent_refractive_index: None,
+        approximate_n_gradient: false,
     }
 }

@@ -49,6 +49,7 @@ fn synthetic(mu_d: f64, seed: u64, u_solvent: f64) -> Problem {
         exclude_reason: None,
         density12: None,
         solvent_refractive_index: None,
+        approximate_n_gradient: false,
     }
 }
 
@@ -209,5 +210,31 @@ fn halverstadt_kumler_agrees_where_the_density_term_is_negligible() {
     assert!(
         (hk2.value - hk.value).abs() > 0.001,
         "HK responds to the density gradient"
+    );
+}
+
+#[test]
+fn the_n_gradient_approximation_is_close_for_small_gradients() {
+    // d(n²)/dw = 2 n dn/dw exactly at w = 0; over a dilute series the two
+    // gradients agree to the curvature of n², here far below u(μ).
+    let p = synthetic(1.69, 5, 1.0);
+    let mut q2 = p.clone();
+    q2.approximate_n_gradient = true;
+    q2.solvent_refractive_index = Some(q(1.4235, 0.0001, None));
+    let exact = propagate(&build(&p).unwrap().model, &Options::default()).unwrap();
+    let approx = propagate(&build(&q2).unwrap().model, &Options::default()).unwrap();
+    let (a, b) = (
+        exact.results.iter().find(|r| r.name == "mu").unwrap(),
+        approx.results.iter().find(|r| r.name == "mu").unwrap(),
+    );
+    assert!(
+        (a.value - b.value).abs() < 0.5 * a.standard_uncertainty,
+        "{} vs {}",
+        a.value,
+        b.value
+    );
+    assert!(
+        approx.results.iter().any(|r| r.name == "a_n"),
+        "a_n is shown as a result of the approximation"
     );
 }
