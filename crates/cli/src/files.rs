@@ -222,6 +222,62 @@ fn yhat(f: &FitResult, x: f64) -> f64 {
         .fold(0.0, |acc, p| acc * x + p.value)
 }
 
+type Chart<'a, 'b> = ChartContext<
+    'a,
+    SVGBackend<'b>,
+    Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+>;
+
+/// The points of a fit at (x, y(p)): plain as dots, flagged as triangles,
+/// excluded as crosses; with legend entries when asked.
+fn draw_points(
+    chart: &mut Chart,
+    points: &[incertus_fit::Point],
+    y: impl Fn(&incertus_fit::Point) -> f64,
+    legend: bool,
+) -> Result<(), String> {
+    let plain = chart
+        .draw_series(
+            points
+                .iter()
+                .filter(|p| !p.excluded && !p.flagged)
+                .map(|p| Circle::new((p.x, y(p)), 4, DARK.filled())),
+        )
+        .map_err(perr)?;
+    if legend {
+        plain
+            .label("point")
+            .legend(|(x, y)| Circle::new((x + 8, y), 4, DARK.filled()));
+    }
+    let flagged = chart
+        .draw_series(
+            points
+                .iter()
+                .filter(|p| p.flagged && !p.excluded)
+                .map(|p| TriangleMarker::new((p.x, y(p)), 7, DARK.filled())),
+        )
+        .map_err(perr)?;
+    if legend {
+        flagged
+            .label("flagged point")
+            .legend(|(x, y)| TriangleMarker::new((x + 8, y), 7, DARK.filled()));
+    }
+    let excluded = chart
+        .draw_series(
+            points
+                .iter()
+                .filter(|p| p.excluded)
+                .map(|p| Cross::new((p.x, y(p)), 6, DARK.stroke_width(2))),
+        )
+        .map_err(perr)?;
+    if legend {
+        excluded
+            .label("excluded point")
+            .legend(|(x, y)| Cross::new((x + 8, y), 6, DARK.stroke_width(2)));
+    }
+    Ok(())
+}
+
 fn fit_svgs(
     name: &str,
     xname: &str,
@@ -297,36 +353,7 @@ fn fit_svgs(
             .map_err(perr)?
             .label("fitted line")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], DARK.stroke_width(2)));
-        chart
-            .draw_series(
-                f.points
-                    .iter()
-                    .filter(|p| !p.excluded && !p.flagged)
-                    .map(|p| Circle::new((p.x, p.y), 4, DARK.filled())),
-            )
-            .map_err(perr)?
-            .label("point")
-            .legend(|(x, y)| Circle::new((x + 8, y), 4, DARK.filled()));
-        chart
-            .draw_series(
-                f.points
-                    .iter()
-                    .filter(|p| p.flagged && !p.excluded)
-                    .map(|p| TriangleMarker::new((p.x, p.y), 7, DARK.filled())),
-            )
-            .map_err(perr)?
-            .label("flagged point")
-            .legend(|(x, y)| TriangleMarker::new((x + 8, y), 7, DARK.filled()));
-        chart
-            .draw_series(
-                f.points
-                    .iter()
-                    .filter(|p| p.excluded)
-                    .map(|p| Cross::new((p.x, p.y), 6, DARK.stroke_width(2))),
-            )
-            .map_err(perr)?
-            .label("excluded point")
-            .legend(|(x, y)| Cross::new((x + 8, y), 6, DARK.stroke_width(2)));
+        draw_points(&mut chart, &f.points, |p| p.y, true)?;
         chart
             .configure_series_labels()
             .background_style(WHITE.mix(0.9))
@@ -361,30 +388,7 @@ fn fit_svgs(
         chart
             .draw_series(LineSeries::new(vec![(x0, 0.0), (x1, 0.0)], MID))
             .map_err(perr)?;
-        chart
-            .draw_series(
-                f.points
-                    .iter()
-                    .filter(|p| !p.excluded && !p.flagged)
-                    .map(|p| Circle::new((p.x, p.residual), 4, DARK.filled())),
-            )
-            .map_err(perr)?;
-        chart
-            .draw_series(
-                f.points
-                    .iter()
-                    .filter(|p| p.flagged && !p.excluded)
-                    .map(|p| TriangleMarker::new((p.x, p.residual), 7, DARK.filled())),
-            )
-            .map_err(perr)?;
-        chart
-            .draw_series(
-                f.points
-                    .iter()
-                    .filter(|p| p.excluded)
-                    .map(|p| Cross::new((p.x, p.residual), 6, DARK.stroke_width(2))),
-            )
-            .map_err(perr)?;
+        draw_points(&mut chart, &f.points, |p| p.residual, false)?;
         root.present().map_err(perr)?;
     }
     Ok((data, resid))

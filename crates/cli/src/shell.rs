@@ -414,13 +414,7 @@ impl Shell {
                 let line = match model.input(name) {
                     Some(i) => {
                         let unit = i.unit.clone();
-                        let (v, u) = match &i.unit_si {
-                            Some(us) => (
-                                us.value_from_si(i.estimate),
-                                us.difference_from_si(i.standard_uncertainty),
-                            ),
-                            None => (i.estimate, i.standard_uncertainty),
-                        };
+                        let (v, u) = i.shown();
                         show(name, v, u, unit.as_deref())
                     }
                     None => self.result_line(&report, name).unwrap_or_default(),
@@ -442,13 +436,7 @@ impl Shell {
         let (model, _) = self.state.evaluate(None).expect("evaluated above");
         for (name, _) in &self.state.inputs.clone() {
             let i = model.input(name).expect("defined");
-            let (v, u) = match &i.unit_si {
-                Some(us) => (
-                    us.value_from_si(i.estimate),
-                    us.difference_from_si(i.standard_uncertainty),
-                ),
-                None => (i.estimate, i.standard_uncertainty),
-            };
+            let (v, u) = i.shown();
             self.say(format!("input  {}", show(name, v, u, i.unit.as_deref())));
         }
         for (name, f, _) in &self.state.results.clone() {

@@ -1360,6 +1360,13 @@ impl Loader<'_> {
                 ),
             )
         };
+        let needs_value = || {
+            r.err(
+                r.span.clone(),
+                "value",
+                format!("`{name}` needs a value (its estimate)"),
+            )
+        };
         let mut input = Input {
             name: name.to_string(),
             estimate: 0.0,
@@ -1615,11 +1622,7 @@ impl Loader<'_> {
                 ));
             };
             let Some(v) = value else {
-                return Err(r.err(
-                    r.span.clone(),
-                    "value",
-                    format!("`{name}` needs a value (its estimate)"),
-                ));
+                return Err(needs_value());
             };
             let dist = match dist_name {
                 None | Some("normal") => Distribution::Normal,
@@ -1639,11 +1642,7 @@ impl Loader<'_> {
 
         if let Some(su) = su {
             let Some(v) = value else {
-                return Err(r.err(
-                    r.span.clone(),
-                    "value",
-                    format!("`{name}` needs a value (its estimate)"),
-                ));
+                return Err(needs_value());
             };
             let dist = match dist_name {
                 None | Some("normal") => Distribution::Normal,

@@ -166,6 +166,43 @@ pub struct Input {
     pub line: usize,
 }
 
+/// Conversion from coherent SI back to a quantity's own unit (identity when
+/// it has none): values with the offset, uncertainties by the factor.
+fn shown_value(unit: Option<&incertus_units::Unit>, v: f64) -> f64 {
+    unit.map_or(v, |u| u.value_from_si(v))
+}
+
+fn unit_factor(unit: Option<&incertus_units::Unit>) -> f64 {
+    unit.map_or(1.0, |u| u.factor)
+}
+
+impl Input {
+    /// Factor of the input's unit to coherent SI (1 without a unit).
+    pub fn unit_factor(&self) -> f64 {
+        unit_factor(self.unit_si.as_ref())
+    }
+
+    /// The estimate and standard uncertainty in the input's own unit.
+    pub fn shown(&self) -> (f64, f64) {
+        (
+            shown_value(self.unit_si.as_ref(), self.estimate),
+            self.standard_uncertainty / self.unit_factor(),
+        )
+    }
+}
+
+impl Measurand {
+    /// Factor of the measurand's unit to coherent SI (1 without a unit).
+    pub fn unit_factor(&self) -> f64 {
+        unit_factor(self.unit_si.as_ref())
+    }
+
+    /// A value in coherent SI, in the measurand's unit.
+    pub fn shown_value(&self, v: f64) -> f64 {
+        shown_value(self.unit_si.as_ref(), v)
+    }
+}
+
 /// A correlation coefficient between two inputs.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Correlation {

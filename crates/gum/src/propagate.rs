@@ -20,7 +20,7 @@ use incertus_expr::{derivative, print, simplify, Expr, Kind};
 use serde::Serialize;
 
 use crate::coverage::{coverage_factor, dof_used, welch_satterthwaite};
-use crate::model::{Distribution, Dof, Evaluation, Model};
+use crate::model::{Distribution, Dof, Evaluation, Measurand, Model};
 
 /// Options of one evaluation.
 #[derive(Clone, Debug, Default)]
@@ -208,7 +208,6 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         ));
     }
     let n = model.inputs.len();
-    let x: Vec<f64> = model.inputs.iter().map(|i| i.estimate).collect();
     let u: Vec<f64> = model
         .inputs
         .iter()
@@ -375,8 +374,8 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         }
         let u_for_expanded = second.unwrap_or(uc);
 
-        let f_out = m.unit_si.as_ref().map_or(1.0, |un| un.factor);
-        let y_shown = m.unit_si.as_ref().map_or(y, |un| un.value_from_si(y));
+        let f_out = m.unit_factor();
+        let y_shown = m.shown_value(y);
         let budget = used
             .iter()
             .map(|&i| {
@@ -384,13 +383,10 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 let (evaluation, observations) = label(model, i);
                 // Shown in the input's and the measurand's own units: the
                 // coefficient becomes c·f_in/f_out, the contribution |c| u / f_out.
-                let f_in = inp.unit_si.as_ref().map_or(1.0, |un| un.factor);
+                let f_in = inp.unit_factor();
                 BudgetLine {
                     input: inp.name.clone(),
-                    value: inp
-                        .unit_si
-                        .as_ref()
-                        .map_or(x[i], |un| un.value_from_si(x[i])),
+                    value: inp.shown().0,
                     standard_uncertainty: u[i] / f_in,
                     dof: inp.dof,
                     distribution: inp.distribution.name().to_string(),
@@ -465,7 +461,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     let f: Vec<f64> = model
         .measurands
         .iter()
-        .map(|m| m.unit_si.as_ref().map_or(1.0, |u| u.factor))
+        .map(Measurand::unit_factor)
         .collect();
     for a in 0..m {
         for b in 0..m {

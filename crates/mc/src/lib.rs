@@ -611,9 +611,9 @@ fn run_in_pool(
         let mut summary =
             stats::summarize(o, p, 60, Some((total_moments.min[j], total_moments.max[j])));
         // From coherent SI to the measurand's unit, as the first-order report.
-        let unit = model.measurands[j].unit_si.as_ref();
-        let val = |v: f64| unit.map_or(v, |u| u.value_from_si(v));
-        let f = unit.map_or(1.0, |u| u.factor);
+        let meas = &model.measurands[j];
+        let val = |v: f64| meas.shown_value(v);
+        let f = meas.unit_factor();
         let sym = summary.symmetric.map(val);
         let short = summary.shortest.map(val);
         for e in summary.histogram.edges.iter_mut() {
@@ -647,7 +647,7 @@ fn run_in_pool(
     let factors: Vec<f64> = model
         .measurands
         .iter()
-        .map(|m| m.unit_si.as_ref().map_or(1.0, |u| u.factor))
+        .map(incertus_gum::Measurand::unit_factor)
         .collect();
     for a in 0..m {
         for b in 0..m {
