@@ -60,9 +60,7 @@ fn solve(
         };
         let mc = incertus_mc::run(&checked.model, &rep, &s)
             .map_err(|e| Failure::input(e.to_string()))?;
-        for (r, m) in rep.results.iter_mut().zip(&mc.results) {
-            r.monte_carlo = Some(serde_json::to_value(m).expect("plain data"));
-        }
+        incertus_mc::attach(&checked.model, &mut rep, &mc);
         Some(mc)
     } else {
         None

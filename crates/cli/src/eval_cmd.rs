@@ -133,9 +133,7 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
         Some(s) => {
             let mc =
                 incertus_mc::run(&model, &report, &s).map_err(|e| Failure::input(e.to_string()))?;
-            for (r, m) in report.results.iter_mut().zip(&mc.results) {
-                r.monte_carlo = Some(serde_json::to_value(m).expect("plain data"));
-            }
+            incertus_mc::attach(&model, &mut report, &mc);
             Some(mc)
         }
         None => None,

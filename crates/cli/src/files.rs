@@ -489,6 +489,26 @@ pub fn write_report(
         env!("CARGO_PKG_VERSION"),
         if mc.is_some() { " and JCGM 101:2008" } else { "" }
     );
+    let statements: Vec<(&str, &str)> = report
+        .results
+        .iter()
+        .filter_map(|r| {
+            r.conformity
+                .as_ref()
+                .map(|c| (r.name.as_str(), c.statement.as_str()))
+        })
+        .collect();
+    if !statements.is_empty() {
+        html.push_str("<h2>Conformity (JCGM 106:2012)</h2>\n");
+        for (name, s) in statements {
+            html.push_str(&format!("<p><b>{}</b>: {}</p>\n", esc(name), esc(s)));
+        }
+        html.push_str(
+            "<p>The decision rule and the acceptable risk are the laboratory's and its customer's choice \
+             (ISO/IEC 17025:2017, 7.1.3); check them against the quality system before a statement goes \
+             on a certificate.</p>\n",
+        );
+    }
     html.push_str("<h2>Inputs, budget and result</h2>\n<pre>");
     html.push_str(&esc(&text));
     html.push_str("</pre>\n<h2>Plots</h2>\n");

@@ -220,6 +220,102 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
     lines
 }
 
+/// The lines of a conformity assessment (JCGM 106:2012), shared by text
+/// and Markdown; the statement comes last, as one line a certificate can
+/// quote.
+fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
+    let Some(c) = &r.conformity else {
+        return Vec::new();
+    };
+    use incertus_gum::conformity::probability;
+    let unit = unit_suffix(r);
+    let name = &r.name;
+    let lim = |v: Option<f64>, low: bool| match v {
+        Some(v) => significant(v, 10),
+        None => if low { "−∞" } else { "+∞" }.to_string(),
+    };
+    let (_, e) = incertus_gum::rounding::round_to_digits(r.expanded_uncertainty, 2);
+    let at = |v: f64| {
+        if e < 0 && e > -16 {
+            let d = (-e) as usize;
+            format!("{v:.d$}")
+        } else {
+            significant(v, 6)
+        }
+    };
+    let mut lines = vec![
+        format!("conformity assessment of {name} (JCGM 106:2012)"),
+        format!(
+            "  tolerance interval                 [{}, {}]{unit}",
+            lim(c.lower_limit, true),
+            lim(c.upper_limit, false)
+        ),
+        format!(
+            "  decision rule                      {}, {}",
+            c.rule, c.guard_band_rule
+        ),
+        format!(
+            "  guard band                         w = {}{unit}",
+            significant(c.guard_band, 3)
+        ),
+        format!(
+            "  acceptance interval                {}",
+            match c.acceptance_interval {
+                None => "empty: no measured value can be accepted".to_string(),
+                Some([a, b]) => format!(
+                    "[{}, {}]{unit}",
+                    a.map_or("−∞".to_string(), at),
+                    b.map_or("+∞".to_string(), at)
+                ),
+            }
+        ),
+        format!(
+            "  conformance probability p_c        {}  ({})",
+            probability(c.conformance_probability),
+            c.distribution
+        ),
+    ];
+    if let Some(m) = &c.monte_carlo {
+        lines.push(format!(
+            "  p_c by Monte Carlo                 {}  ({} of {} trials inside; standard uncertainty {})",
+            probability(m.conformance_probability),
+            m.inside,
+            m.trials,
+            probability(m.standard_uncertainty)
+        ));
+    }
+    lines.push(format!(
+        "  verdict                            {}, specific {} risk {}",
+        c.verdict.to_uppercase(),
+        c.specific_risk_kind,
+        probability(c.specific_risk)
+    ));
+    if let Some(cm) = c.measurement_capability_index {
+        lines.push(format!(
+            "  measurement capability index       C_m = (T_U − T_L)/(4 u) = {}",
+            significant(cm, 3)
+        ));
+    }
+    if let Some(g) = &c.global_risks {
+        lines.push(format!(
+            "  global risks, process N({}, {}){unit}: consumer's R_C = {}, producer's R_P = {} (JCGM 106:2012, clause 9)",
+            significant(g.process.mean, 6),
+            significant(g.process.standard_deviation, 3),
+            probability(g.consumer_risk),
+            probability(g.producer_risk)
+        ));
+        lines.push(format!(
+            "                                     non-conforming fraction of the process without measurement: {}",
+            probability(g.nonconforming_fraction)
+        ));
+    }
+    for n in &c.notes {
+        lines.push(format!("  note: {n}"));
+    }
+    lines.push(format!("  statement: {}", c.statement));
+    lines
+}
+
 /// A fit as text: method, parameters, covariance, diagnostics, flags and
 /// exclusions, with the result without the exclusions beside.
 pub fn fit_text(title: &str, f: &incertus_fit::FitResult) -> String {
@@ -516,6 +612,14 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
                 out.push('\n');
             }
         }
+        let c = conformity_lines(r);
+        if !c.is_empty() {
+            for l in c {
+                out.push_str(l.trim_end());
+                out.push('\n');
+            }
+            out.push('\n');
+        }
     }
     if report.results.len() > 1 {
         out.push_str("correlation matrix of the measurands (JCGM 102:2011, first order)\n");
@@ -602,7 +706,21 @@ pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String 
                 }
             }
         }
-        out.push_str("```\n\n");
+        let c = conformity_lines(r);
+        if let Some((statement, rest)) = c.split_last() {
+            out.push('\n');
+            for l in rest {
+                out.push_str(l.trim_end());
+                out.push('\n');
+            }
+            out.push_str("```\n\n");
+            out.push_str(&format!(
+                "**Conformity statement.** {}\n\n",
+                md_escape(statement.trim_start().trim_start_matches("statement: "))
+            ));
+        } else {
+            out.push_str("```\n\n");
+        }
     }
     if report.results.len() > 1 {
         out.push_str("Correlation matrix of the measurands (JCGM 102:2011, first order):\n\n| |");
@@ -718,6 +836,59 @@ pub fn csv(report: &Report) -> String {
             out.push_str(&fields.join(","));
             out.push('\n');
         }
+        if let Some(c) = &r.conformity {
+            for (what, v) in conformity_rows(c) {
+                let mut fields = vec![String::new(); 12];
+                fields[0] = csv_field(&r.name);
+                fields[1] = "conformity".into();
+                fields[2] = what.into();
+                fields[3] = v;
+                out.push_str(&fields.join(","));
+                out.push('\n');
+            }
+        }
     }
     out
+}
+
+/// The numbers of a conformity assessment as (quantity, value) pairs for
+/// CSV; an empty value is an absent limit.
+fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static str, String)> {
+    let mut rows = vec![
+        ("lower_limit", opt(c.lower_limit)),
+        ("upper_limit", opt(c.upper_limit)),
+        ("rule", csv_field(&c.rule)),
+        ("guard_band", format!("{:e}", c.guard_band)),
+    ];
+    match c.acceptance_interval {
+        Some([a, b]) => {
+            rows.push(("acceptance_lower", opt(a)));
+            rows.push(("acceptance_upper", opt(b)));
+        }
+        None => rows.push(("acceptance_interval", "empty".into())),
+    }
+    rows.push((
+        "conformance_probability",
+        format!("{:e}", c.conformance_probability),
+    ));
+    rows.push(("verdict", c.verdict.clone()));
+    rows.push((
+        if c.specific_risk_kind == "consumer's" {
+            "specific_consumer_risk"
+        } else {
+            "specific_producer_risk"
+        },
+        format!("{:e}", c.specific_risk),
+    ));
+    if let Some(m) = &c.monte_carlo {
+        rows.push((
+            "monte_carlo_conformance_probability",
+            format!("{:e}", m.conformance_probability),
+        ));
+    }
+    if let Some(g) = &c.global_risks {
+        rows.push(("global_consumer_risk", format!("{:e}", g.consumer_risk)));
+        rows.push(("global_producer_risk", format!("{:e}", g.producer_risk)));
+    }
+    rows
 }

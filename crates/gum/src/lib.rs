@@ -32,6 +32,7 @@
 
 pub mod builder;
 pub mod check;
+pub mod conformity;
 pub mod constants;
 pub mod coverage;
 pub mod dimensions;

@@ -229,6 +229,8 @@ pub struct Measurand {
     pub unit_si: Option<incertus_units::Unit>,
     pub expected_value: Option<Stated>,
     pub expected_standard_uncertainty: Option<Stated>,
+    /// Tolerance limits and decision rule (JCGM 106:2012), in `unit`.
+    pub specification: Option<crate::conformity::Specification>,
     pub line: usize,
 }
 

@@ -105,6 +105,9 @@ pub struct MeasurandResult {
     pub correlation_budget: Vec<CorrelationLine>,
     /// Filled by propagation of distributions when it is run.
     pub monte_carlo: Option<serde_json::Value>,
+    /// Conformity assessment (JCGM 106:2012) when the measurand has a
+    /// specification.
+    pub conformity: Option<crate::conformity::Conformity>,
 }
 
 /// A square matrix with names.
@@ -433,7 +436,27 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             correlation_terms: corr_sum_scaled * s * s / (f_out * f_out),
             correlation_budget,
             monte_carlo: None,
+            conformity: None,
         });
+        if let Some(spec) = &m.specification {
+            let r = results.last_mut().expect("just pushed");
+            let belief = crate::conformity::Belief {
+                value: r.value,
+                standard_uncertainty: r.expanded_uncertainty / r.coverage_factor,
+                dof: r.effective_dof_used,
+            };
+            r.conformity = Some(
+                crate::conformity::assess(
+                    spec,
+                    belief,
+                    r.expanded_uncertainty,
+                    r.coverage_factor,
+                    p,
+                    m.unit.as_deref(),
+                )
+                .map_err(|e| perr(format!("measurand `{}`: {e}", m.name), None))?,
+            );
+        }
         sens_rows.push(c);
     }
     if grouped_note {

@@ -110,6 +110,9 @@ pub struct McMeasurand {
     pub validation: Validation,
     pub non_finite_dropped: usize,
     pub histogram: Histogram,
+    /// Trials inside the tolerance interval, when the measurand has a
+    /// specification (the fraction of trials, as JCGM 101:2008 does for coverage).
+    pub conformance: Option<incertus_gum::conformity::McConformance>,
 }
 
 /// Adaptive-procedure bookkeeping (JCGM 101:2008, 7.9).
@@ -608,6 +611,20 @@ fn run_in_pool(
     }
     let mut results = Vec::with_capacity(m);
     for (j, o) in outs.iter_mut().enumerate() {
+        // Conformance by counting, in the measurand's unit (limits included).
+        let conformance = model.measurands[j].specification.as_ref().map(|spec| {
+            let meas = &model.measurands[j];
+            let lo = spec.lower.unwrap_or(f64::NEG_INFINITY);
+            let hi = spec.upper.unwrap_or(f64::INFINITY);
+            let inside = o
+                .iter()
+                .filter(|&&v| {
+                    let x = meas.shown_value(v);
+                    x >= lo && x <= hi
+                })
+                .count();
+            incertus_gum::conformity::McConformance::from_count(inside, o.len())
+        });
         let mut summary =
             stats::summarize(o, p, 60, Some((total_moments.min[j], total_moments.max[j])));
         // From coherent SI to the measurand's unit, as the first-order report.
@@ -642,6 +659,7 @@ fn run_in_pool(
             },
             non_finite_dropped: dropped,
             histogram: summary.histogram,
+            conformance,
         });
     }
     let factors: Vec<f64> = model
@@ -673,6 +691,27 @@ fn run_in_pool(
             matrix: corr,
         },
     })
+}
+
+/// Put a run's results into the first-order report: each measurand's
+/// `monte_carlo` object, and the Monte Carlo conformance probability into
+/// its conformity assessment.
+pub fn attach(model: &Model, report: &mut Report, mc: &McReport) {
+    for ((r, m), meas) in report
+        .results
+        .iter_mut()
+        .zip(&mc.results)
+        .zip(&model.measurands)
+    {
+        r.monte_carlo = Some(serde_json::to_value(m).expect("plain data"));
+        if let (Some(c), Some(spec), Some(count)) = (
+            r.conformity.as_mut(),
+            meas.specification.as_ref(),
+            m.conformance.as_ref(),
+        ) {
+            incertus_gum::conformity::add_monte_carlo(c, spec, count.clone());
+        }
+    }
 }
 
 /// The stopping rule of JCGM 101:2008, 7.9.4: twice the standard deviation

@@ -1,0 +1,732 @@
+//! Conformity assessment with decision rules (JCGM 106:2012): is the item
+//! within its tolerance interval, how probable is that, and what does the
+//! decision risk?
+//!
+//! - The **conformance probability** p_c (JCGM 106:2012, clause 7) from the
+//!   first-order result: the measurand is taken as normal N(y, u_c), or as
+//!   Student's t with ν_eff degrees of freedom scaled by u_c and shifted to
+//!   y when ν_eff is finite (the distribution behind y ± t_p(ν_eff) u_c,
+//!   JCGM 100:2008, G.6 and JCGM 101:2008, 6.4.9). From Monte Carlo trials,
+//!   p_c is the fraction of trials inside the tolerance interval.
+//! - **Acceptance intervals** (clause 8): simple acceptance (the acceptance
+//!   interval is the tolerance interval), guarded acceptance (shrunk by a
+//!   guard band w on each side) and guarded rejection (widened by w). The
+//!   guard band is a multiple of the expanded uncertainty, w = r U, or is
+//!   derived from a largest specific risk: the acceptance limit is the
+//!   measured value at which the specific risk equals the target.
+//! - **Specific risks** for this item: if accepted, the specific consumer's
+//!   risk 1 − p_c (the accepted item does not conform); if rejected, the
+//!   specific producer's risk p_c (the rejected item conforms).
+//! - **Global risks** (clause 9) when the user gives the distribution of the
+//!   true values of the production process as N(y₀, u₀): the joint
+//!   probabilities R_C = Pr(η outside the tolerance, measured value
+//!   accepted) and R_P = Pr(η inside, measured value rejected), with the
+//!   measuring system's error normal with standard deviation u_c. Each is a
+//!   one-dimensional integral of the prior density times a difference of
+//!   normal distribution functions, computed by adaptive Gauss-Kronrod
+//!   quadrature with the limits as break points.
+//!
+//! Left out: asymmetric or non-normal process distributions, decision
+//! rules on several measurands at once, and the cost models of JCGM 106
+//! Annex; the laboratory's quality system chooses the rule and the risk.
+
+use serde::Serialize;
+use statrs::distribution::{ContinuousCDF, StudentsT};
+
+/// How the acceptance interval is placed against the tolerance interval
+/// (JCGM 106:2012, clause 8).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Rule {
+    /// The acceptance interval is the tolerance interval.
+    SimpleAcceptance,
+    /// The acceptance interval is the tolerance interval shrunk by w.
+    GuardedAcceptance,
+    /// The acceptance interval is the tolerance interval widened by w.
+    GuardedRejection,
+}
+
+impl Rule {
+    pub fn name(&self) -> &'static str {
+        match self {
+            Rule::SimpleAcceptance => "simple acceptance",
+            Rule::GuardedAcceptance => "guarded acceptance",
+            Rule::GuardedRejection => "guarded rejection",
+        }
+    }
+}
+
+/// How the guard band w is set.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Guard {
+    /// No guard band (simple acceptance).
+    None,
+    /// w = r U, U the expanded uncertainty of the result.
+    MultipleOfU(f64),
+    /// w such that the specific risk at the acceptance limit equals this
+    /// target: the consumer's risk for guarded acceptance, the producer's
+    /// for guarded rejection.
+    SpecificRisk(f64),
+}
+
+/// The distribution of the true values of the production process, N(mean, sd).
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Process {
+    pub mean: f64,
+    pub standard_deviation: f64,
+}
+
+/// The tolerance interval and decision rule of one measurand, in the
+/// measurand's unit.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Specification {
+    pub lower: Option<f64>,
+    pub upper: Option<f64>,
+    pub rule: Rule,
+    pub guard: Guard,
+    pub process: Option<Process>,
+}
+
+/// The first-order state of knowledge of the measurand: normal (dof
+/// `None`) or scaled and shifted Student's t.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Belief {
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub dof: Option<f64>,
+}
+
+/// Standard normal distribution function, accurate in both tails (libm's
+/// erfc, a port of the musl/FreeBSD one, within an ulp or so; statrs'
+/// erfc is off by some 1e-11 relative near z = 2).
+pub fn normal_cdf(z: f64) -> f64 {
+    if z.is_nan() {
+        return f64::NAN;
+    }
+    0.5 * libm::erfc(-z / std::f64::consts::SQRT_2)
+}
+
+fn std_cdf(z: f64, dof: Option<f64>) -> f64 {
+    if z == f64::INFINITY {
+        return 1.0;
+    }
+    if z == f64::NEG_INFINITY {
+        return 0.0;
+    }
+    match dof {
+        Some(nu) if nu < 1e7 => {
+            let t = StudentsT::new(0.0, 1.0, nu).expect("dof is positive and finite");
+            // The lower tail is accurate; the upper tail comes by symmetry.
+            if z <= 0.0 {
+                t.cdf(z)
+            } else {
+                1.0 - t.cdf(-z)
+            }
+        }
+        _ => normal_cdf(z),
+    }
+}
+
+/// Pr(Z ≤ z) for z ≤ 0 and Pr(Z ≥ −z) alike: the smaller tail, accurately.
+fn std_tail(z: f64, dof: Option<f64>) -> f64 {
+    std_cdf(-z.abs(), dof)
+}
+
+impl Belief {
+    fn z(&self, x: f64) -> f64 {
+        (x - self.value) / self.standard_uncertainty
+    }
+
+    /// Pr(Y < lo or Y > hi), accurate when small (`None` = no limit).
+    pub fn probability_outside(&self, lo: Option<f64>, hi: Option<f64>) -> f64 {
+        let lo = lo.unwrap_or(f64::NEG_INFINITY);
+        let hi = hi.unwrap_or(f64::INFINITY);
+        if hi < lo {
+            return 1.0;
+        }
+        if self.standard_uncertainty == 0.0 {
+            return if lo <= self.value && self.value <= hi {
+                0.0
+            } else {
+                1.0
+            };
+        }
+        let (zl, zh) = (self.z(lo), self.z(hi));
+        if zl < 0.0 && zh > 0.0 {
+            std_tail(zl, self.dof) + std_tail(zh, self.dof)
+        } else {
+            1.0 - self.probability_inside(Some(lo), Some(hi))
+        }
+    }
+
+    /// Pr(lo ≤ Y ≤ hi), accurate when small (`None` = no limit).
+    pub fn probability_inside(&self, lo: Option<f64>, hi: Option<f64>) -> f64 {
+        let lo = lo.unwrap_or(f64::NEG_INFINITY);
+        let hi = hi.unwrap_or(f64::INFINITY);
+        if hi < lo {
+            return 0.0;
+        }
+        if self.standard_uncertainty == 0.0 {
+            return if lo <= self.value && self.value <= hi {
+                1.0
+            } else {
+                0.0
+            };
+        }
+        let (zl, zh) = (self.z(lo), self.z(hi));
+        if zl >= 0.0 {
+            // Both limits above the value: a difference of upper tails.
+            (std_tail(zl, self.dof) - std_tail(zh, self.dof)).max(0.0)
+        } else if zh <= 0.0 {
+            (std_tail(zh, self.dof) - std_tail(zl, self.dof)).max(0.0)
+        } else {
+            (1.0 - std_tail(zl, self.dof) - std_tail(zh, self.dof)).max(0.0)
+        }
+    }
+
+    /// The quantile z of the standard distribution with Pr(Z ≤ z) = q, for
+    /// q in [1/2, 1), by bisection on the distribution function.
+    fn std_quantile_upper(&self, q: f64) -> f64 {
+        let tail = 1.0 - q;
+        let mut hi = 1.0;
+        let mut n = 0;
+        while std_tail(hi, self.dof) > tail && n < 1100 {
+            hi *= 2.0;
+            n += 1;
+        }
+        let mut lo = 0.0;
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            if std_tail(mid, self.dof) > tail {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        0.5 * (lo + hi)
+    }
+}
+
+/// The global risks of JCGM 106:2012, clause 9.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct GlobalRisks {
+    pub process: Process,
+    /// The measuring system's standard uncertainty used (u_c of the result).
+    pub measurement_standard_uncertainty: f64,
+    /// Pr(η outside the tolerance interval) under the process distribution.
+    pub nonconforming_fraction: f64,
+    /// Pr(η outside the tolerance interval and the item accepted).
+    pub consumer_risk: f64,
+    /// Pr(η inside the tolerance interval and the item rejected).
+    pub producer_risk: f64,
+}
+
+/// The Monte Carlo side of the assessment.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct McConformance {
+    pub trials: usize,
+    /// Trials with a value inside the tolerance interval (limits included).
+    pub inside: usize,
+    pub conformance_probability: f64,
+    /// √(p(1 − p)/M): the standard uncertainty of that fraction.
+    pub standard_uncertainty: f64,
+    /// 1 − p_c if the item is accepted, p_c if rejected.
+    pub specific_risk: f64,
+    /// For a rule set by a largest specific risk: whether the Monte Carlo
+    /// risk leads to the same verdict as the first-order one.
+    pub same_verdict: Option<bool>,
+}
+
+impl McConformance {
+    /// From a count of trials inside the tolerance interval.
+    pub fn from_count(inside: usize, trials: usize) -> McConformance {
+        let p = if trials == 0 {
+            f64::NAN
+        } else {
+            inside as f64 / trials as f64
+        };
+        McConformance {
+            trials,
+            inside,
+            conformance_probability: p,
+            standard_uncertainty: (p * (1.0 - p) / trials as f64).sqrt(),
+            specific_risk: f64::NAN,
+            same_verdict: None,
+        }
+    }
+}
+
+/// The assessment of one measurand (the `conformity` object of the JSON
+/// report). Limits and intervals are in the measurand's unit; `None` is an
+/// absent (infinite) limit.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Conformity {
+    pub lower_limit: Option<f64>,
+    pub upper_limit: Option<f64>,
+    /// "simple acceptance", "guarded acceptance" or "guarded rejection".
+    pub rule: String,
+    /// How the guard band was set, in words.
+    pub guard_band_rule: String,
+    /// w (0 for simple acceptance).
+    pub guard_band: f64,
+    /// The acceptance interval; `None` when no measured value is accepted.
+    pub acceptance_interval: Option<[Option<f64>; 2]>,
+    /// The first-order distribution used, in words.
+    pub distribution: String,
+    pub conformance_probability: f64,
+    /// "accepted" or "rejected".
+    pub verdict: String,
+    /// "consumer's" (accepted item) or "producer's" (rejected item).
+    pub specific_risk_kind: String,
+    pub specific_risk: f64,
+    /// C_m = (T_U − T_L)/(4 u_c) when both limits are given (JCGM 106:2012, 7.5).
+    pub measurement_capability_index: Option<f64>,
+    pub global_risks: Option<GlobalRisks>,
+    pub monte_carlo: Option<McConformance>,
+    /// The decision rule and the result in words a certificate can quote.
+    pub statement: String,
+    pub notes: Vec<String>,
+}
+
+/// A problem with a specification that only shows with the result.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{0}")]
+pub struct ConformityError(pub String);
+
+/// Assess one result against its specification. `expanded_uncertainty`
+/// and `coverage_factor` are those of the report (w = r U uses them).
+pub fn assess(
+    spec: &Specification,
+    belief: Belief,
+    expanded_uncertainty: f64,
+    coverage_factor: f64,
+    coverage_probability: f64,
+    unit: Option<&str>,
+) -> Result<Conformity, ConformityError> {
+    let (lo, hi) = (spec.lower, spec.upper);
+    if !belief.value.is_finite() || !belief.standard_uncertainty.is_finite() {
+        return Err(ConformityError(
+            "the result is not finite, so conformity cannot be assessed".into(),
+        ));
+    }
+    let u = belief.standard_uncertainty;
+    let pc = belief.probability_inside(lo, hi);
+    let mut notes = Vec::new();
+
+    // The guard band w and the acceptance interval.
+    let (w, guard_text) = match (spec.rule, spec.guard) {
+        (Rule::SimpleAcceptance, _) | (_, Guard::None) => (0.0, "no guard band".to_string()),
+        (_, Guard::MultipleOfU(r)) => (
+            r * expanded_uncertainty,
+            format!(
+                "guard band w = {} × U, U = {}{} (k = {:.2}, p = {})",
+                crate::rounding::significant(r, 4),
+                crate::rounding::significant(expanded_uncertainty, 2),
+                unit.map(|u| format!(" {u}")).unwrap_or_default(),
+                coverage_factor,
+                percent(coverage_probability)
+            ),
+        ),
+        (rule, Guard::SpecificRisk(alpha)) => {
+            let w = risk_guard_band(rule, alpha, belief, lo, hi);
+            let who = if rule == Rule::GuardedAcceptance {
+                "consumer's"
+            } else {
+                "producer's"
+            };
+            (
+                w.unwrap_or(f64::NAN),
+                format!(
+                    "guard band set so that the specific {who} risk at the acceptance limits is {}",
+                    percent(alpha)
+                ),
+            )
+        }
+    };
+    let sign = match spec.rule {
+        Rule::SimpleAcceptance => 0.0,
+        Rule::GuardedAcceptance => 1.0,
+        Rule::GuardedRejection => -1.0,
+    };
+    let acceptance = if w.is_nan() {
+        None
+    } else {
+        let al = lo.map(|l| l + sign * w);
+        let ah = hi.map(|h| h - sign * w);
+        match (al, ah) {
+            (Some(a), Some(b)) if a > b => None,
+            (a, b) => Some([a, b]),
+        }
+    };
+    let accepted = match acceptance {
+        None => false,
+        Some([a, b]) => a.is_none_or(|a| belief.value >= a) && b.is_none_or(|b| belief.value <= b),
+    };
+    if acceptance.is_none() {
+        notes.push(
+            "no measured value can be accepted under this rule: the uncertainty is too large \
+             for the tolerance interval (reduce the uncertainty or review the rule)"
+                .to_string(),
+        );
+    }
+    let risk = if accepted {
+        belief.probability_outside(lo, hi)
+    } else {
+        pc
+    };
+    let cm = match (lo, hi) {
+        (Some(l), Some(h)) if u > 0.0 => Some((h - l) / (4.0 * u)),
+        _ => None,
+    };
+    let distribution = match belief.dof {
+        None => "normal, N(y, u_c)".to_string(),
+        Some(nu) => format!(
+            "Student's t with ν_eff = {} dof, scaled by u_c and centred on y",
+            crate::rounding::significant(nu, 3)
+        ),
+    };
+    if belief.dof.is_some() {
+        notes.push(
+            "finite effective degrees of freedom: the conformance probability uses Student's t, \
+             which has heavier tails than the normal distribution"
+                .to_string(),
+        );
+    }
+    let global_risks = spec.process.map(|p| global_risks(p, u, lo, hi, acceptance));
+    if global_risks.is_some() && belief.dof.is_some() {
+        notes.push(
+            "global risks take the measuring system's error as normal with standard deviation u_c \
+             (JCGM 106:2012, clause 9)"
+                .to_string(),
+        );
+    }
+    let mut c = Conformity {
+        lower_limit: lo,
+        upper_limit: hi,
+        rule: spec.rule.name().to_string(),
+        guard_band_rule: guard_text,
+        guard_band: w,
+        acceptance_interval: acceptance,
+        distribution,
+        conformance_probability: pc,
+        verdict: if accepted { "accepted" } else { "rejected" }.to_string(),
+        specific_risk_kind: if accepted { "consumer's" } else { "producer's" }.to_string(),
+        specific_risk: risk,
+        measurement_capability_index: cm,
+        global_risks,
+        monte_carlo: None,
+        statement: String::new(),
+        notes,
+    };
+    c.statement = statement(&c, belief, expanded_uncertainty, unit);
+    Ok(c)
+}
+
+/// Merge the Monte Carlo count into an assessment.
+pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConformance) {
+    let accepted = c.verdict == "accepted";
+    let p = mc.conformance_probability;
+    mc.specific_risk = if accepted { 1.0 - p } else { p };
+    if let Guard::SpecificRisk(alpha) = spec.guard {
+        let mc_accepts = match spec.rule {
+            Rule::GuardedAcceptance => 1.0 - p <= alpha,
+            Rule::GuardedRejection => p > alpha,
+            Rule::SimpleAcceptance => accepted,
+        };
+        mc.same_verdict = Some(mc_accepts == accepted);
+        if mc_accepts != accepted {
+            c.notes.push(format!(
+                "the Monte Carlo conformance probability {} would lead to the other verdict under this rule; \
+                 the first-order distribution may not describe the measurand well (compare the validation)",
+                crate::rounding::significant(p, 4)
+            ));
+        }
+    }
+    c.monte_carlo = Some(mc);
+}
+
+fn percent(p: f64) -> String {
+    format!("{} %", crate::rounding::significant(100.0 * p, 4))
+}
+
+/// The guard band for a largest specific risk `alpha`, or `None` when no
+/// measured value can be accepted.
+fn risk_guard_band(
+    rule: Rule,
+    alpha: f64,
+    belief: Belief,
+    lo: Option<f64>,
+    hi: Option<f64>,
+) -> Option<f64> {
+    let u = belief.standard_uncertainty;
+    if u == 0.0 {
+        return Some(0.0);
+    }
+    // The p_c that the acceptance limit must have.
+    let target = match rule {
+        Rule::GuardedRejection => alpha,
+        _ => 1.0 - alpha,
+    };
+    match (lo, hi) {
+        (Some(l), Some(h)) => {
+            // p_c(y) is symmetric about the midpoint and falls away from it.
+            let mid = 0.5 * (l + h);
+            let pc = |y: f64| Belief { value: y, ..belief }.probability_inside(lo, hi);
+            if pc(mid) < target {
+                return None;
+            }
+            let mut a = mid;
+            let mut step = (h - mid).max(u);
+            let mut b = mid + step;
+            let mut n = 0;
+            while pc(b) >= target && n < 1100 {
+                a = b;
+                step *= 2.0;
+                b = mid + step;
+                n += 1;
+            }
+            for _ in 0..300 {
+                let m = 0.5 * (a + b);
+                if m <= a || m >= b {
+                    break;
+                }
+                if pc(m) >= target {
+                    a = m;
+                } else {
+                    b = m;
+                }
+            }
+            let upper_acceptance = a;
+            Some(match rule {
+                Rule::GuardedRejection => upper_acceptance - h,
+                _ => h - upper_acceptance,
+            })
+        }
+        _ => {
+            // One limit: p_c at the acceptance limit is F(±w/u).
+            let z = belief.std_quantile_upper(1.0 - alpha);
+            Some(z * u)
+        }
+    }
+}
+
+/// Adaptive Gauss-Kronrod (7-15) quadrature of `f` on [a, b].
+fn integrate(f: &dyn Fn(f64) -> f64, a: f64, b: f64, tol: f64) -> f64 {
+    const XK: [f64; 8] = [
+        0.991_455_371_120_812_6,
+        0.949_107_912_342_758_5,
+        0.864_864_423_359_769_1,
+        0.741_531_185_599_394_4,
+        0.586_087_235_467_691_1,
+        0.405_845_151_377_397_2,
+        0.207_784_955_007_898_5,
+        0.0,
+    ];
+    const WK: [f64; 8] = [
+        0.022_935_322_010_529_22,
+        0.063_092_092_629_978_55,
+        0.104_790_010_322_250_2,
+        0.140_653_259_715_525_9,
+        0.169_004_726_639_267_9,
+        0.190_350_578_064_785_4,
+        0.204_432_940_075_298_9,
+        0.209_482_141_084_727_8,
+    ];
+    const WG: [f64; 4] = [
+        0.129_484_966_168_869_7,
+        0.279_705_391_489_276_7,
+        0.381_830_050_505_118_9,
+        0.417_959_183_673_469_4,
+    ];
+    let gk = |a: f64, b: f64| {
+        let c = 0.5 * (a + b);
+        let h = 0.5 * (b - a);
+        let fc = f(c);
+        let mut k = WK[7] * fc;
+        let mut g = WG[3] * fc;
+        for j in 0..7 {
+            let x = h * XK[j];
+            let s = f(c - x) + f(c + x);
+            k += WK[j] * s;
+            if j % 2 == 1 {
+                g += WG[j / 2] * s;
+            }
+        }
+        (k * h, ((k - g) * h).abs())
+    };
+    if b <= a {
+        return 0.0;
+    }
+    let mut total = 0.0;
+    let mut stack = vec![(a, b, 0u32)];
+    let mut evaluations = 0usize;
+    while let Some((x, y, depth)) = stack.pop() {
+        let (v, err) = gk(x, y);
+        evaluations += 1;
+        if err <= tol * (y - x) / (b - a) || depth >= 50 || evaluations > 200_000 {
+            total += v;
+        } else {
+            let m = 0.5 * (x + y);
+            stack.push((x, m, depth + 1));
+            stack.push((m, y, depth + 1));
+        }
+    }
+    total
+}
+
+/// R_C and R_P of JCGM 106:2012, clause 9, for a normal process
+/// distribution and a normal measuring system with standard deviation `u`.
+pub fn global_risks(
+    process: Process,
+    u: f64,
+    lo: Option<f64>,
+    hi: Option<f64>,
+    acceptance: Option<[Option<f64>; 2]>,
+) -> GlobalRisks {
+    let (m0, s0) = (process.mean, process.standard_deviation);
+    let a = m0 - 40.0 * s0;
+    let b = m0 + 40.0 * s0;
+    let clip = |x: Option<f64>| x.map(|v| v.clamp(a, b));
+    let tl = clip(lo).unwrap_or(a);
+    let tu = clip(hi).unwrap_or(b);
+    let density = |eta: f64| {
+        let z = (eta - m0) / s0;
+        (-0.5 * z * z).exp() / (s0 * (2.0 * std::f64::consts::PI).sqrt())
+    };
+    // Pr(measured value in the acceptance interval | true value eta).
+    let accept = |eta: f64| match acceptance {
+        None => 0.0,
+        Some([al, ah]) => Belief {
+            value: eta,
+            standard_uncertainty: u,
+            dof: None,
+        }
+        .probability_inside(al, ah),
+    };
+    let reject = |eta: f64| match acceptance {
+        None => 1.0,
+        Some([al, ah]) => Belief {
+            value: eta,
+            standard_uncertainty: u,
+            dof: None,
+        }
+        .probability_outside(al, ah),
+    };
+    // Break points: the limits and acceptance limits inside [a, b].
+    let mut points = vec![a, b, tl, tu, m0];
+    if let Some([al, ah]) = acceptance {
+        points.extend(clip(al));
+        points.extend(clip(ah));
+    }
+    points.sort_by(f64::total_cmp);
+    points.dedup();
+    let tol = 1e-15;
+    let mut consumer = 0.0;
+    let mut producer = 0.0;
+    for pair in points.windows(2) {
+        let (x, y) = (pair[0], pair[1]);
+        let mid = 0.5 * (x + y);
+        let inside = lo.is_none_or(|l| mid >= l) && hi.is_none_or(|h| mid <= h);
+        if inside {
+            producer += integrate(&|e| density(e) * reject(e), x, y, tol);
+        } else {
+            consumer += integrate(&|e| density(e) * accept(e), x, y, tol);
+        }
+    }
+    let nonconforming = Belief {
+        value: m0,
+        standard_uncertainty: s0,
+        dof: None,
+    }
+    .probability_outside(lo, hi);
+    GlobalRisks {
+        process,
+        measurement_standard_uncertainty: u,
+        nonconforming_fraction: nonconforming,
+        consumer_risk: consumer,
+        producer_risk: producer,
+    }
+}
+
+fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> String {
+    let unit_text = unit.map(|u| format!(" {u}")).unwrap_or_default();
+    let (_, e) = crate::rounding::round_to_digits(big_u.max(belief.standard_uncertainty), 2);
+    let at = |v: f64| {
+        if e < 0 && e > -16 {
+            let d = (-e) as usize;
+            format!("{v:.d$}")
+        } else {
+            crate::rounding::significant(v, 6)
+        }
+    };
+    let limit = |v: Option<f64>, lower: bool| match v {
+        Some(v) => crate::rounding::significant(v, 10),
+        None => if lower { "−∞" } else { "+∞" }.to_string(),
+    };
+    let tolerance = format!(
+        "[{}, {}]{unit_text}",
+        limit(c.lower_limit, true),
+        limit(c.upper_limit, false)
+    );
+    let acceptance = match c.acceptance_interval {
+        None => "empty".to_string(),
+        Some([a, b]) => format!(
+            "[{}, {}]{unit_text}",
+            a.map_or("−∞".to_string(), at),
+            b.map_or("+∞".to_string(), at)
+        ),
+    };
+    let rule = match c.rule.as_str() {
+        "simple acceptance" => format!(
+            "Decision rule: simple acceptance (JCGM 106:2012, clause 8): the item is accepted when the \
+             measured value lies in the tolerance interval {tolerance}, limits included."
+        ),
+        "guarded acceptance" => format!(
+            "Decision rule: guarded acceptance (JCGM 106:2012, clause 8): the item is accepted when the \
+             measured value lies in the acceptance interval {acceptance}, the tolerance interval {tolerance} \
+             reduced on each side by a {}.",
+            c.guard_band_rule
+        ),
+        _ => format!(
+            "Decision rule: guarded rejection (JCGM 106:2012, clause 8): the item is rejected only when the \
+             measured value lies outside the acceptance interval {acceptance}, the tolerance interval \
+             {tolerance} widened on each side by a {}.",
+            c.guard_band_rule
+        ),
+    };
+    let who = if c.verdict == "accepted" {
+        "specific consumer's risk (probability that this accepted item does not conform)"
+    } else {
+        "specific producer's risk (probability that this rejected item conforms)"
+    };
+    format!(
+        "{rule} Measured value {}{unit_text}: {}. Conformance probability {}; {who}: {}.",
+        at(belief.value),
+        c.verdict,
+        probability(c.conformance_probability),
+        probability(c.specific_risk)
+    )
+}
+
+/// A probability for a statement, as a percentage: four significant
+/// digits, but near 100 % enough decimals to show two digits of the
+/// complement (99.99962 %, not 100 %); below 1e-15, "< 1e-13 %".
+pub fn probability(p: f64) -> String {
+    if p.is_nan() {
+        return "not available".into();
+    }
+    if p < 1e-15 {
+        return "< 1e-13 %".into();
+    }
+    if p > 1.0 - 1e-15 {
+        return "> 99.9999999999999 %".into();
+    }
+    let q = 1.0 - p;
+    if q < 1e-3 {
+        let decimals = (-(100.0 * q).log10().floor()) as usize + 1;
+        return format!("{:.*} %", decimals, 100.0 * p);
+    }
+    format!("{} %", crate::rounding::significant(100.0 * p, 4))
+}
