@@ -5,7 +5,7 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use incertus_gum::{check, load_file, propagate, Model, Options, Report};
+use incertus_gum::{check, propagate, Model, Options, Report};
 
 use crate::report::{self, Style};
 use crate::Failure;
@@ -100,7 +100,7 @@ pub struct CheckArgs {
 }
 
 pub(crate) fn load(file: &std::path::Path) -> Result<Model, Failure> {
-    load_file(file).map_err(|e| Failure::input(e.to_string()))
+    incertus_gum::load_file_with(file, &crate::limits()?).map_err(|e| Failure::input(e.to_string()))
 }
 
 pub(crate) fn evaluate(
@@ -120,6 +120,7 @@ pub(crate) fn evaluate(
         &Options {
             coverage_probability: coverage,
             second_order,
+            limits: crate::limits()?,
         },
     )
     .map_err(|e| Failure::input(e.to_string()))

@@ -4,7 +4,7 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use incertus_fit::{fit, read_columns, FitRequest};
+use incertus_fit::{fit, read_columns_limited, FitRequest};
 
 use crate::Failure;
 
@@ -67,7 +67,8 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
     if let Some(u) = &a.x_uncertainty {
         names.push(u);
     }
-    let cols = read_columns(&a.file, &names).map_err(|e| Failure::input(e.0))?;
+    let cols = read_columns_limited(&a.file, &names, crate::limits()?.max_data_rows)
+        .map_err(|e| Failure::input(e.0))?;
     let uy = a.y_uncertainty.as_ref().map(|_| cols.columns[2].as_slice());
     let ux = a
         .x_uncertainty

@@ -23,6 +23,8 @@ mod shell;
 pub const EXIT_INPUT: u8 = 1;
 /// Exit code for a malformed command line.
 pub const EXIT_USAGE: u8 = 2;
+/// Exit code of an internal error (a bug): never caused by input alone.
+pub const EXIT_INTERNAL: u8 = 70;
 
 #[derive(Parser, Debug)]
 #[command(
@@ -72,15 +74,45 @@ impl Failure {
     }
 }
 
+/// The size limits, with the environment's overrides (`INCERTUS_MAX_*`).
+pub(crate) fn limits() -> Result<incertus_gum::Limits, Failure> {
+    incertus_gum::Limits::from_env().map_err(Failure::input)
+}
+
+/// Stack of the thread that runs a command: formulas are walked
+/// recursively, and a deeply nested model (within the limits) must not
+/// overflow the 8 MiB of a main thread.
+const STACK_BYTES: usize = 256 << 20;
+
 /// Run the program with the process's arguments.
 pub fn run() -> ExitCode {
     // Unlocked handles: a lock held for the whole run would deadlock any
     // worker thread that writes to the same stream.
-    let code = run_with(
-        std::env::args_os(),
-        &mut std::io::stdout(),
-        &mut std::io::stderr(),
-    );
+    let worker = std::thread::Builder::new()
+        .name("incertus".into())
+        .stack_size(STACK_BYTES)
+        .spawn(|| {
+            run_with(
+                std::env::args_os(),
+                &mut std::io::stdout(),
+                &mut std::io::stderr(),
+            )
+        });
+    let code = match worker.map(|h| h.join()) {
+        Ok(Ok(code)) => code,
+        // A panic has printed its message; say what it means for the user.
+        Ok(Err(_)) => {
+            eprintln!(
+                "error: internal error (a bug in incertus, not in your input); no file was changed. \
+                 Please report it with the command and the input files"
+            );
+            EXIT_INTERNAL
+        }
+        Err(e) => {
+            eprintln!("error: cannot start the worker thread: {e}");
+            EXIT_INTERNAL
+        }
+    };
     ExitCode::from(code)
 }
 

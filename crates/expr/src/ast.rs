@@ -93,6 +93,50 @@ impl Expr {
         }
     }
 
+    /// A hash of the structure, ignoring spans, consistent with
+    /// [`Expr::same`]: equal structures hash equally (`0.0` and `-0.0`
+    /// alike). Used to find equal terms and bases in linear time.
+    pub fn shape_hash(&self) -> u64 {
+        use std::hash::{Hash, Hasher};
+        fn walk(e: &Expr, h: &mut std::collections::hash_map::DefaultHasher) {
+            std::mem::discriminant(&e.kind).hash(h);
+            match &e.kind {
+                Kind::Num(v) => (if *v == 0.0 { 0.0f64 } else { *v }).to_bits().hash(h),
+                Kind::Pi => {}
+                Kind::Var(n) => n.hash(h),
+                Kind::Neg(a) => walk(a, h),
+                Kind::Sum(ts) => {
+                    ts.len().hash(h);
+                    for t in ts {
+                        t.negative.hash(h);
+                        walk(&t.expr, h);
+                    }
+                }
+                Kind::Product(fs) => {
+                    fs.len().hash(h);
+                    for f in fs {
+                        f.divide.hash(h);
+                        walk(&f.expr, h);
+                    }
+                }
+                Kind::Pow(a, b) => {
+                    walk(a, h);
+                    walk(b, h);
+                }
+                Kind::Call(f, args) => {
+                    f.hash(h);
+                    args.len().hash(h);
+                    for a in args {
+                        walk(a, h);
+                    }
+                }
+            }
+        }
+        let mut h = std::collections::hash_map::DefaultHasher::new();
+        walk(self, &mut h);
+        h.finish()
+    }
+
     /// Structural equality, ignoring spans. Literals compare by value
     /// (`0.0` and `-0.0` are the same).
     pub fn same(&self, other: &Expr) -> bool {

@@ -36,6 +36,52 @@ pub fn derivative_n(e: &Expr, wrt: &[&str]) -> Expr {
     d
 }
 
+/// An upper bound on the number of nodes of the unsimplified derivative
+/// ∂e/∂`wrt`, computed without building it (one pass over the tree), so
+/// that a caller can refuse a derivative that would not fit in memory: the
+/// product rule copies a product once per factor that depends on `wrt`, so
+/// a product of n such factors has a derivative of about n² nodes.
+///
+/// ```
+/// use incertus_expr::{derivative_size, parse};
+/// let f = parse("(x+1)*(x+2)*(x+3)").unwrap();
+/// assert!(derivative_size(&f, "x") >= 9.0);
+/// assert_eq!(derivative_size(&f, "y"), 1.0);
+/// ```
+pub fn derivative_size(e: &Expr, wrt: &str) -> f64 {
+    sizes(e, wrt).1
+}
+
+/// (nodes of e, bound on the nodes of its raw derivative, depends on w).
+fn sizes(e: &Expr, w: &str) -> (f64, f64, bool) {
+    match &e.kind {
+        Kind::Num(_) | Kind::Pi => (1.0, 1.0, false),
+        Kind::Var(n) => (1.0, 1.0, n == w),
+        _ => {
+            let kids: Vec<(f64, f64, bool)> = e.children().iter().map(|c| sizes(c, w)).collect();
+            let n = 1.0 + kids.iter().map(|k| k.0).sum::<f64>();
+            if !kids.iter().any(|k| k.2) {
+                return (n, 1.0, false);
+            }
+            let d = match &e.kind {
+                Kind::Neg(_) => 1.0 + kids[0].1,
+                Kind::Sum(_) => 1.0 + kids.iter().filter(|k| k.2).map(|k| k.1).sum::<f64>(),
+                Kind::Product(_) => {
+                    1.0 + kids
+                        .iter()
+                        .filter(|k| k.2)
+                        .map(|k| n - k.0 + k.1 + k.0 + 4.0)
+                        .sum::<f64>()
+                }
+                // Power and function rules: a few copies of the node and
+                // its arguments, plus the arguments' derivatives.
+                _ => 3.0 * n + 16.0 + kids.iter().map(|k| k.1).sum::<f64>(),
+            };
+            (n, d, true)
+        }
+    }
+}
+
 fn num(v: f64, s: Span) -> Expr {
     Expr::num(v, s)
 }

@@ -70,7 +70,8 @@ pub fn caret(src: &str, span: Span) -> String {
     let total = flat.chars().count();
     let (from, to) = if total > 2 * WINDOW + 10 {
         let from = col.saturating_sub(WINDOW);
-        let to = (col + width + WINDOW).min(total);
+        // A span longer than the window is shown by its start.
+        let to = (col + width.min(2 * WINDOW) + WINDOW).min(total);
         (from, to)
     } else {
         (0, total)

@@ -28,7 +28,7 @@ mod simplify;
 mod tape;
 
 pub use ast::{Expr, Factor, Kind, Span, Term};
-pub use derive::{derivative, derivative_n};
+pub use derive::{derivative, derivative_n, derivative_size};
 pub use error::{caret, ErrorKind, FormulaError};
 pub use eval::Env;
 pub use func::Func;

@@ -241,6 +241,7 @@ fn scaled(c: Coef, rest: Expr, s: Span) -> Expr {
 pub(crate) fn build_sum(terms: Vec<(bool, Expr)>, s: Span) -> Expr {
     let mut constant = Coef::int(0.0);
     let mut items: Vec<(Coef, Expr)> = Vec::new();
+    let mut index = SameIndex::default();
     // Each pending term carries the coefficient it is multiplied by; a sum
     // met as a term (or as `c * sum`) is flattened into its terms.
     let mut stack: Vec<(Coef, Expr)> = terms
@@ -261,10 +262,16 @@ pub(crate) fn build_sum(terms: Vec<(bool, Expr)>, s: Span) -> Expr {
                     stack.push((if negative { c.neg() } else { c }, expr));
                 }
             }
-            Some(r) => match items.iter_mut().find(|(_, e)| e.same(&r)) {
-                Some(item) => item.0 = item.0.add(c),
-                None => items.push((c, r)),
-            },
+            Some(r) => {
+                let h = r.shape_hash();
+                match index.find(h, &r, |i| &items[i].1) {
+                    Some(i) => items[i].0 = items[i].0.add(c),
+                    None => {
+                        index.insert(h, items.len());
+                        items.push((c, r));
+                    }
+                }
+            }
         }
     }
     items.retain(|(c, _)| !c.is_zero());
@@ -311,6 +318,7 @@ pub(crate) fn build_product(factors: Vec<(bool, Expr)>, s: Span) -> Expr {
     let mut coef = Coef::int(1.0);
     // Bases with numeric exponents, merged when equal.
     let mut bases: Vec<(Expr, Coef)> = Vec::new();
+    let mut index = SameIndex::default();
     let mut stack: Vec<(bool, Expr, Coef)> = factors
         .into_iter()
         .rev()
@@ -350,10 +358,15 @@ pub(crate) fn build_product(factors: Vec<(bool, Expr)>, s: Span) -> Expr {
                 if p.is_integer() || p.is_one() {
                     stack.push((false, *b, q.mul(p)));
                 } else {
-                    merge_base(&mut bases, Expr::new(Kind::Pow(b, x), f.span), p);
+                    merge_base(
+                        &mut bases,
+                        &mut index,
+                        Expr::new(Kind::Pow(b, x), f.span),
+                        p,
+                    );
                 }
             }
-            kind => merge_base(&mut bases, Expr::new(kind, f.span), p),
+            kind => merge_base(&mut bases, &mut index, Expr::new(kind, f.span), p),
         }
     }
     if coef.is_zero() {
@@ -428,10 +441,36 @@ pub(crate) fn build_product(factors: Vec<(bool, Expr)>, s: Span) -> Expr {
     }
 }
 
-fn merge_base(bases: &mut Vec<(Expr, Coef)>, b: Expr, p: Coef) {
-    match bases.iter_mut().find(|(e, _)| e.same(&b)) {
-        Some(item) => item.1 = item.1.add(p),
-        None => bases.push((b, p)),
+fn merge_base(bases: &mut Vec<(Expr, Coef)>, index: &mut SameIndex, b: Expr, p: Coef) {
+    let h = b.shape_hash();
+    match index.find(h, &b, |i| &bases[i].0) {
+        Some(i) => bases[i].1 = bases[i].1.add(p),
+        None => {
+            index.insert(h, bases.len());
+            bases.push((b, p));
+        }
+    }
+}
+
+/// Positions of earlier items by the hash of their structure, so that
+/// equal terms and bases are found without comparing every pair (a sum of
+/// n products of n factors would otherwise take n³ comparisons).
+#[derive(Default)]
+struct SameIndex {
+    by_hash: std::collections::HashMap<u64, Vec<usize>>,
+}
+
+impl SameIndex {
+    fn find<'a>(&self, h: u64, e: &Expr, item: impl Fn(usize) -> &'a Expr) -> Option<usize> {
+        self.by_hash
+            .get(&h)?
+            .iter()
+            .copied()
+            .find(|&i| item(i).same(e))
+    }
+
+    fn insert(&mut self, h: u64, i: usize) {
+        self.by_hash.entry(h).or_default().push(i);
     }
 }
 

@@ -18,9 +18,21 @@ pub struct Columns {
 /// Largest data file read, in bytes.
 pub const MAX_DATA_BYTES: u64 = 256 << 20;
 
+/// Most data rows read by [`read_columns`].
+pub const MAX_DATA_ROWS: usize = 10_000_000;
+
 /// Read the named columns as numbers. Every cell of them must hold a
 /// finite number; the first line is the header.
 pub fn read_columns(path: &Path, names: &[&str]) -> Result<Columns, DataError> {
+    read_columns_limited(path, names, MAX_DATA_ROWS)
+}
+
+/// [`read_columns`] with a limit on the number of data rows.
+pub fn read_columns_limited(
+    path: &Path,
+    names: &[&str],
+    max_rows: usize,
+) -> Result<Columns, DataError> {
     let file = path.display().to_string();
     let meta = std::fs::metadata(path)
         .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
@@ -54,6 +66,11 @@ pub fn read_columns(path: &Path, names: &[&str]) -> Result<Columns, DataError> {
     let mut columns = vec![Vec::new(); names.len()];
     let mut rows = Vec::new();
     for (k, rec) in rdr.records().enumerate() {
+        if k >= max_rows {
+            return Err(DataError(format!(
+                "{file}: more than {max_rows} data rows; the limit can be raised (INCERTUS_MAX_DATA_ROWS)"
+            )));
+        }
         let rec = rec.map_err(|e| {
             let line = e.position().map_or(0, |p| p.line());
             DataError(format!("{file}:{line}: cannot read the line: {e}"))

@@ -36,6 +36,7 @@ pub mod conformity;
 pub mod constants;
 pub mod coverage;
 pub mod dimensions;
+pub mod limits;
 mod load;
 pub mod matrix;
 pub mod model;
@@ -50,6 +51,7 @@ pub use check::{check, CheckItem, CheckReport};
 pub fn units_factor(unit: &str) -> Option<f64> {
     incertus_units::parse(unit).ok().map(|u| u.factor)
 }
-pub use load::{load_file, load_str, ModelError, MAX_FILE_BYTES};
+pub use limits::Limits;
+pub use load::{load_file, load_file_with, load_str, load_str_with, ModelError, MAX_FILE_BYTES};
 pub use model::{Correlation, Distribution, DofRounding, Evaluation, Input, Measurand, Model};
 pub use propagate::{propagate, BudgetLine, MeasurandResult, Options, PropagationError, Report};

@@ -17,6 +17,7 @@ use toml::Spanned;
 
 use crate::conformity::Specification;
 use crate::constants;
+use crate::limits::Limits;
 use crate::model::*;
 use crate::typea;
 
@@ -58,8 +59,14 @@ impl ModelError {
     }
 }
 
-/// Read and load a model file. The file is opened for reading only.
+/// Read and load a model file with the default [`Limits`]. The file is
+/// opened for reading only.
 pub fn load_file(path: &Path) -> Result<Model, ModelError> {
+    load_file_with(path, &Limits::default())
+}
+
+/// Read and load a model file with explicit limits.
+pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError> {
     let file = path.display().to_string();
     let whole = |message: String| ModelError {
         file: file.clone(),
@@ -73,11 +80,11 @@ pub fn load_file(path: &Path) -> Result<Model, ModelError> {
     if meta.is_dir() {
         return Err(whole("is a directory, not a model file".into()));
     }
-    if meta.len() > MAX_FILE_BYTES {
+    if meta.len() > limits.max_file_bytes {
         return Err(whole(format!(
-            "the file is {} bytes; model files are limited to {} bytes",
+            "the file is {} bytes; model files are limited to {} bytes (INCERTUS_MAX_FILE_BYTES)",
             meta.len(),
-            MAX_FILE_BYTES
+            limits.max_file_bytes
         )));
     }
     let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
@@ -87,11 +94,17 @@ pub fn load_file(path: &Path) -> Result<Model, ModelError> {
             e.utf8_error().valid_up_to()
         ))
     })?;
-    load_str(&text, &file)
+    load_str_with(&text, &file, limits)
 }
 
-/// Load a model from TOML text; `file` names it in errors.
+/// Load a model from TOML text with the default [`Limits`]; `file` names
+/// it in errors.
 pub fn load_str(text: &str, file: &str) -> Result<Model, ModelError> {
+    load_str_with(text, file, &Limits::default())
+}
+
+/// Load a model from TOML text with explicit limits.
+pub fn load_str_with(text: &str, file: &str, limits: &Limits) -> Result<Model, ModelError> {
     let doc = Doc { src: text, file };
     let root = DeTable::parse(text).map_err(|e| {
         let span = e.span().unwrap_or(0..0);
@@ -105,7 +118,11 @@ pub fn load_str(text: &str, file: &str) -> Result<Model, ModelError> {
     })?;
     let root_span = root.span();
     let mut top = Reader::new(&doc, "", root.get_ref(), root_span);
-    Loader { doc: &doc }.model(&mut top)
+    Loader {
+        doc: &doc,
+        limits: *limits,
+    }
+    .model(&mut top)
 }
 
 struct Doc<'a> {
@@ -522,6 +539,7 @@ const SPECIFICATION_KEYS: &[&str] = &[
 
 struct Loader<'a> {
     doc: &'a Doc<'a>,
+    limits: Limits,
 }
 
 /// A name must read as a single name of the formula language.
@@ -615,6 +633,17 @@ impl Loader<'_> {
                     ),
                 ));
             };
+            if t.len() > self.limits.max_inputs {
+                return Err(top.err(
+                    top.span_of("inputs"),
+                    "inputs",
+                    format!(
+                        "{} inputs; the limit is {} (INCERTUS_MAX_INPUTS)",
+                        t.len(),
+                        self.limits.max_inputs
+                    ),
+                ));
+            }
             for (k, val) in t.iter() {
                 let name = k.get_ref().to_string();
                 let path = format!("inputs.{name}");
@@ -866,6 +895,17 @@ impl Loader<'_> {
         if items.is_empty() {
             return Err(doc.error(mspan, "measurands", "the list of measurands is empty"));
         }
+        if items.len() > self.limits.max_measurands {
+            return Err(doc.error(
+                mspan,
+                "measurands",
+                format!(
+                    "{} measurands; the limit is {} (INCERTUS_MAX_MEASURANDS)",
+                    items.len(),
+                    self.limits.max_measurands
+                ),
+            ));
+        }
         for (m, item) in items.iter().enumerate() {
             let path = format!("measurands[{m}]");
             let mut r = item_reader(doc, item, &path, "name and formula")?;
@@ -916,6 +956,7 @@ impl Loader<'_> {
         }
         self.check_formula_names(&inputs, &measurands, items)?;
         let measurands = order_measurands(doc, measurands, items)?;
+        self.check_expanded_size(&measurands, items)?;
         let units = inputs.iter().any(|i| i.unit_si.is_some())
             || measurands.iter().any(|m| m.unit_si.is_some());
         if units {
@@ -1216,8 +1257,9 @@ impl Loader<'_> {
                     names.extend(uxc.iter().cloned());
                     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
                     let p = doc.dir().join(&file);
-                    let cols = incertus_fit::read_columns(&p, &refs)
-                        .map_err(|e| r.err(fspan.clone(), "data", e.0))?;
+                    let cols =
+                        incertus_fit::read_columns_limited(&p, &refs, self.limits.max_data_rows)
+                            .map_err(|e| r.err(fspan.clone(), "data", e.0))?;
                     let mut it = cols.columns.into_iter();
                     let x = it.next().expect("x column");
                     let y = it.next().expect("y column");
@@ -1308,6 +1350,67 @@ impl Loader<'_> {
         let mut err = r.err(at..at, key, e.message.clone());
         err.detail = Some(incertus_expr::caret(text, e.span));
         err
+    }
+
+    /// The formula of each measurand in terms of the inputs (measurands it
+    /// uses substituted) must stay within the node and depth limits:
+    /// substitution can double a formula at every level.
+    fn check_expanded_size(&self, measurands: &[Measurand], items: &DeArray) -> Result<()> {
+        fn walk(e: &Expr, known: &HashMap<&str, (f64, usize)>) -> (f64, usize) {
+            match &e.kind {
+                Kind::Var(n) => known.get(n.as_str()).copied().unwrap_or((1.0, 1)),
+                _ => {
+                    let mut nodes = 1.0;
+                    let mut depth = 0;
+                    for c in e.children() {
+                        let (n, d) = walk(c, known);
+                        nodes += n;
+                        depth = depth.max(d);
+                    }
+                    (nodes, depth + 1)
+                }
+            }
+        }
+        let mut known: HashMap<&str, (f64, usize)> = HashMap::new();
+        for m in measurands {
+            let (nodes, depth) = walk(&m.formula, &known);
+            let over_nodes = nodes > self.limits.max_formula_nodes as f64;
+            let over_depth = depth > self.limits.max_formula_depth;
+            if over_nodes || over_depth {
+                let index = items
+                    .iter()
+                    .position(|it| {
+                        it.get_ref()
+                            .as_table()
+                            .and_then(|t| t.iter().find(|(k, _)| k.get_ref().as_ref() == "name"))
+                            .and_then(|(_, v)| v.get_ref().as_str().map(|s| s == m.name))
+                            .unwrap_or(false)
+                    })
+                    .unwrap_or(0);
+                let r = item_reader(
+                    self.doc,
+                    &items[index],
+                    &format!("measurands[{index}]"),
+                    "name and formula",
+                )?;
+                let msg = if over_nodes {
+                    format!(
+                        "with the measurands it uses written out, the formula of `{}` has about {:.3e} nodes; \
+                         the limit is {} (INCERTUS_MAX_FORMULA_NODES)",
+                        m.name, nodes, self.limits.max_formula_nodes
+                    )
+                } else {
+                    format!(
+                        "with the measurands it uses written out, the formula of `{}` is nested {} levels deep; \
+                         the limit is {} (INCERTUS_MAX_FORMULA_DEPTH)",
+                        m.name, depth, self.limits.max_formula_depth
+                    )
+                };
+                return Err(r.err(r.value_span_of("formula"), "formula", msg));
+            }
+            known.insert(m.name.as_str(), (nodes, depth));
+        }
+        Ok(())
     }
 
     /// Every formula's dimension, and each measurand's against its unit.

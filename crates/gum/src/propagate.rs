@@ -29,6 +29,29 @@ pub struct Options {
     pub coverage_probability: Option<f64>,
     /// Add the higher-order terms of JCGM 100:2008, 5.1.2 (note).
     pub second_order: bool,
+    /// Size limits (the derivative limit is used here).
+    pub limits: crate::limits::Limits,
+}
+
+/// ∂e/∂w, refused before it is built when it would exceed the limit.
+fn checked_derivative(
+    e: &Expr,
+    w: &str,
+    max_nodes: u64,
+    of: &str,
+) -> Result<Expr, PropagationError> {
+    let size = incertus_expr::derivative_size(e, w);
+    if size > max_nodes as f64 {
+        return Err(perr(
+            format!(
+                "the derivative of `{of}` with respect to `{w}` would have about {size:.3e} nodes; \
+                 the limit is {max_nodes} (INCERTUS_MAX_DERIVATIVE_NODES). Writing a long product or \
+                 power as intermediate measurands keeps derivatives small"
+            ),
+            None,
+        ));
+    }
+    Ok(derivative(e, w))
 }
 
 /// A problem found while propagating.
@@ -257,7 +280,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             if !f.depends_on(name) {
                 continue;
             }
-            let d = derivative(f, name);
+            let d = checked_derivative(f, name, opts.limits.max_derivative_nodes, &m.name)?;
             let ci: f64 = d.eval(input_env.as_slice()).map_err(|e| {
                 perr(
                     format!(
@@ -357,6 +380,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 &u,
                 uc,
                 &input_env,
+                opts.limits.max_derivative_nodes,
             )?)
         } else {
             None
@@ -540,6 +564,7 @@ fn second_order(
     u: &[f64],
     uc: f64,
     env: &[(&str, f64)],
+    max_nodes: u64,
 ) -> Result<f64, PropagationError> {
     if let Some(c) = model
         .correlations
@@ -571,7 +596,10 @@ fn second_order(
             )
         })
     };
-    let firsts: Vec<Expr> = names.iter().map(|w| derivative(&f, w)).collect();
+    let firsts: Vec<Expr> = names
+        .iter()
+        .map(|w| checked_derivative(&f, w, max_nodes, name))
+        .collect::<Result<_, _>>()?;
     if uc == 0.0 {
         return Ok(0.0);
     }
@@ -586,9 +614,12 @@ fn second_order(
             if u[j] == 0.0 {
                 continue;
             }
-            let fij_e = derivative(&firsts[a], names[b]);
+            let fij_e = checked_derivative(&firsts[a], names[b], max_nodes, name)?;
             let fij = eval(&fij_e, "second derivative")?;
-            let fijj = eval(&derivative(&fij_e, names[b]), "third derivative")?;
+            let fijj = eval(
+                &checked_derivative(&fij_e, names[b], max_nodes, name)?,
+                "third derivative",
+            )?;
             let r1 = fi * u[i] / uc;
             let r2 = fij * u[i] * u[j] / uc;
             let r3 = fijj * u[i] * u[j] * u[j] / uc;

@@ -1,0 +1,71 @@
+//! Size limits on what a model may ask for, so that a mistaken or damaged
+//! file gets a clear error instead of exhausting memory or time.
+//!
+//! Each limit is far above what a measurement model needs (the largest
+//! published worked examples have tens of inputs) and can be raised: in a
+//! program through [`Limits`], from the command line through the
+//! environment variables named on each field. The parser's own limits
+//! (formula length 1 MiB, nesting 256) are in `incertus_expr::Limits`; the
+//! Monte Carlo memory estimate is checked against the free memory before
+//! any allocation (`incertus_mc::memory_needed`).
+
+/// The limits applied while loading and propagating.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Limits {
+    /// Largest model file, in bytes (`INCERTUS_MAX_FILE_BYTES`).
+    pub max_file_bytes: u64,
+    /// Most input quantities (`INCERTUS_MAX_INPUTS`); the covariance of n
+    /// inputs takes 8 n² bytes.
+    pub max_inputs: usize,
+    /// Most measurands (`INCERTUS_MAX_MEASURANDS`).
+    pub max_measurands: usize,
+    /// Largest formula of the inputs once measurands used by other
+    /// measurands are substituted, in nodes (`INCERTUS_MAX_FORMULA_NODES`):
+    /// substitution can double a formula at each level.
+    pub max_formula_nodes: u64,
+    /// Deepest such formula (`INCERTUS_MAX_FORMULA_DEPTH`).
+    pub max_formula_depth: usize,
+    /// Largest sensitivity-coefficient formula before simplification, in
+    /// nodes (`INCERTUS_MAX_DERIVATIVE_NODES`).
+    pub max_derivative_nodes: u64,
+    /// Most data rows of a fit (`INCERTUS_MAX_DATA_ROWS`).
+    pub max_data_rows: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits {
+            max_file_bytes: 16 << 20,
+            max_inputs: 10_000,
+            max_measurands: 1_000,
+            max_formula_nodes: 1_000_000,
+            max_formula_depth: 2_048,
+            max_derivative_nodes: 4_000_000,
+            max_data_rows: 10_000_000,
+        }
+    }
+}
+
+impl Limits {
+    /// The defaults, with any limit raised or lowered by its environment
+    /// variable. An unreadable value is an error naming the variable.
+    pub fn from_env() -> Result<Limits, String> {
+        let mut l = Limits::default();
+        fn read<T: std::str::FromStr>(name: &str, slot: &mut T) -> Result<(), String> {
+            if let Ok(v) = std::env::var(name) {
+                *slot = v.trim().parse().map_err(|_| {
+                    format!("environment variable {name}: `{v}` is not a whole number")
+                })?;
+            }
+            Ok(())
+        }
+        read("INCERTUS_MAX_FILE_BYTES", &mut l.max_file_bytes)?;
+        read("INCERTUS_MAX_INPUTS", &mut l.max_inputs)?;
+        read("INCERTUS_MAX_MEASURANDS", &mut l.max_measurands)?;
+        read("INCERTUS_MAX_FORMULA_NODES", &mut l.max_formula_nodes)?;
+        read("INCERTUS_MAX_FORMULA_DEPTH", &mut l.max_formula_depth)?;
+        read("INCERTUS_MAX_DERIVATIVE_NODES", &mut l.max_derivative_nodes)?;
+        read("INCERTUS_MAX_DATA_ROWS", &mut l.max_data_rows)?;
+        Ok(l)
+    }
+}
