@@ -50,7 +50,8 @@ fn a_scripted_session_prints_exactly_this() {
         &dir.join("home"),
         &dir,
     );
-    assert_eq!(code, 0);
+    // Two statements fail (foo(x), q = x*): a script with errors exits 1.
+    assert_eq!(code, 1);
     // u(x y) = √((3·0.1)² + (2·0.2)²) = 0.5; with r = 0.5 the correlation
     // term 2·3·2·0.5·0.1·0.2 = 0.12 makes u² = 0.37 (JCGM 100:2008, 5.2.2).
     let expected = "\
@@ -86,7 +87,8 @@ fn save_then_eval_gives_the_same_numbers_and_never_overwrites() {
         &dir.join("home"),
         &dir,
     );
-    assert_eq!(code, 0);
+    // The refused second save is an error of the script.
+    assert_eq!(code, 1);
     assert!(out.contains("A = 25.00 ± 0.73 mm^2"), "{out}");
     assert!(out.contains("saved to area.toml"));
     assert!(

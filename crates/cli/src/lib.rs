@@ -18,6 +18,7 @@ mod files;
 mod fit_cmd;
 pub mod report;
 mod shell;
+pub use shell::run_statements;
 
 /// Exit code for a problem with the user's input.
 pub const EXIT_INPUT: u8 = 1;

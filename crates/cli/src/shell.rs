@@ -307,6 +307,10 @@ fn show(name: &str, value: f64, u: f64, unit: Option<&str>) -> String {
 struct Shell {
     state: State,
     out: Vec<String>,
+    /// Whether save, load and recover may touch files.
+    files: bool,
+    /// Statements that ended in an error.
+    failures: usize,
 }
 
 const HELP: &str = "statements:
@@ -323,7 +327,11 @@ commands:
 
 impl Shell {
     fn say(&mut self, s: impl Into<String>) {
-        self.out.push(s.into());
+        let s = s.into();
+        if s.starts_with("error:") {
+            self.failures += 1;
+        }
+        self.out.push(s);
     }
 
     fn result_line(&self, report: &Report, name: &str) -> Option<String> {
@@ -351,6 +359,9 @@ impl Shell {
             "sensitivities" if is_name(arg) => self.sensitivities(arg),
             "montecarlo" if !arg.is_empty() => self.montecarlo(arg),
             "correlate" if !arg.is_empty() => self.correlate(arg),
+            "save" | "save!" | "load" | "recover" if !self.files => self.say(format!(
+                "error: `{cmd}` is not available here (files are off)"
+            )),
             "save" | "save!" if !arg.is_empty() => self.save(arg, cmd == "save!"),
             "load" if !arg.is_empty() => self.load(Path::new(arg)),
             "recover" => {
@@ -636,10 +647,30 @@ impl Shell {
     }
 }
 
+/// Run shell statements without a terminal and without files (save, load
+/// and recover are refused): the output lines. For tests and fuzzing of
+/// the statement parser.
+pub fn run_statements<'a>(lines: impl IntoIterator<Item = &'a str>) -> Vec<String> {
+    let mut sh = Shell {
+        state: State::default(),
+        out: Vec::new(),
+        files: false,
+        failures: 0,
+    };
+    for l in lines {
+        if !sh.line(l) {
+            break;
+        }
+    }
+    sh.out
+}
+
 pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let mut sh = Shell {
         state: State::default(),
         out: Vec::new(),
+        files: true,
+        failures: 0,
     };
     let flush = |sh: &mut Shell, out: &mut dyn Write| {
         for l in sh.out.drain(..) {
@@ -699,6 +730,14 @@ pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
                 recovery.display()
             );
         }
+    }
+    // A script (standard input not a terminal) fails if a statement did.
+    if !interactive && sh.failures > 0 {
+        return Err(Failure::input(format!(
+            "{} statement{} of the script failed (see the lines starting with error:)",
+            sh.failures,
+            if sh.failures == 1 { "" } else { "s" }
+        )));
     }
     Ok(())
 }

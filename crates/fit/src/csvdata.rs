@@ -41,12 +41,23 @@ pub fn read_columns_limited(
             "{file}: the data file is larger than {MAX_DATA_BYTES} bytes"
         )));
     }
+    let f = std::fs::File::open(path)
+        .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
+    columns_from_reader(f, &file, names, max_rows)
+}
+
+/// Read the named columns from CSV text; `file` names it in errors.
+pub fn columns_from_reader(
+    source: impl std::io::Read,
+    file: &str,
+    names: &[&str],
+    max_rows: usize,
+) -> Result<Columns, DataError> {
     let mut rdr = csv::ReaderBuilder::new()
         .flexible(true)
         .trim(csv::Trim::All)
         .comment(Some(b'#'))
-        .from_path(path)
-        .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
+        .from_reader(source);
     let headers = rdr
         .headers()
         .map_err(|e| DataError(format!("{file}:1: cannot read the header line: {e}")))?

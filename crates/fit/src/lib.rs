@@ -20,7 +20,8 @@ mod linear;
 mod york;
 
 pub use csvdata::{
-    read_columns, read_columns_limited, Columns, DataError, MAX_DATA_BYTES, MAX_DATA_ROWS,
+    columns_from_reader, read_columns, read_columns_limited, Columns, DataError, MAX_DATA_BYTES,
+    MAX_DATA_ROWS,
 };
 pub use linear::{fit_basis, fit_polynomial};
 pub use york::fit_york;

@@ -31,7 +31,6 @@
 //! Annex; the laboratory's quality system chooses the rule and the risk.
 
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, StudentsT};
 
 /// How the acceptance interval is placed against the tolerance interval
 /// (JCGM 106:2012, clause 8).
@@ -106,23 +105,9 @@ pub fn normal_cdf(z: f64) -> f64 {
 }
 
 fn std_cdf(z: f64, dof: Option<f64>) -> f64 {
-    if z == f64::INFINITY {
-        return 1.0;
-    }
-    if z == f64::NEG_INFINITY {
-        return 0.0;
-    }
     match dof {
-        Some(nu) if nu < 1e7 => {
-            let t = StudentsT::new(0.0, 1.0, nu).expect("dof is positive and finite");
-            // The lower tail is accurate; the upper tail comes by symmetry.
-            if z <= 0.0 {
-                t.cdf(z)
-            } else {
-                1.0 - t.cdf(-z)
-            }
-        }
-        _ => normal_cdf(z),
+        Some(nu) => crate::coverage::student_t_cdf(z, nu),
+        None => normal_cdf(z),
     }
 }
 

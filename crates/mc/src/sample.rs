@@ -36,7 +36,7 @@ use incertus_gum::{Distribution, Model};
 use rand::RngExt;
 use rand_distr::{ChiSquared, Distribution as _, Exp1, Gamma, StandardNormal, StudentT};
 use rand_xoshiro::Xoshiro256PlusPlus;
-use statrs::distribution::{ContinuousCDF, Normal as StatNormal, StudentsT as StatT};
+use statrs::distribution::{ContinuousCDF, Normal as StatNormal};
 
 /// The random stream of one block.
 pub type Stream = Xoshiro256PlusPlus;
@@ -232,9 +232,7 @@ impl Marginal {
             Marginal::Fixed(x) => *x,
             Marginal::Normal { x, u } => x + u * std_normal().inverse_cdf(p),
             Marginal::T { x, u, nu, .. } => {
-                x + u * StatT::new(0.0, 1.0, *nu)
-                    .expect("dof checked")
-                    .inverse_cdf(p)
+                x + u * incertus_gum::coverage::student_t_quantile(p, *nu)
             }
             Marginal::Rectangular { x, a } => x + a * (2.0 * p - 1.0),
             Marginal::Triangular { x, a } => {

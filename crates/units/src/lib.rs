@@ -475,7 +475,16 @@ impl UnitParser<'_> {
             return Ok((1, 1));
         };
         let (text, paren) = match after.strip_prefix('(') {
-            Some(r) => (r.split(')').next().unwrap_or(""), true),
+            Some(r) => match r.find(')') {
+                Some(i) => (&r[..i], true),
+                None => {
+                    return Err(self.err(
+                        "the parenthesis of the power is not closed: write ^(1/2)",
+                        start,
+                        start + 1 + after.len(),
+                    ))
+                }
+            },
             None => {
                 let len = after
                     .char_indices()

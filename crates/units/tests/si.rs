@@ -101,3 +101,13 @@ fn dimension_arithmetic() {
     assert!((l / l).is_one());
     assert_eq!(Dimension::ONE.to_string(), "1");
 }
+
+#[test]
+fn unclosed_power_parenthesis_is_an_error_not_a_panic() {
+    // Found by tests/fuzz.rs (regression tests/fuzz/regressions/shell/).
+    for text in ["mm^(2", "m^(", "kg^(1/2", "m**(3"] {
+        let e = parse(text).unwrap_err();
+        assert!(e.message.contains("not closed"), "{text}: {}", e.message);
+        assert!(e.end <= text.len(), "{text}");
+    }
+}
