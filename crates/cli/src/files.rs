@@ -18,8 +18,8 @@ use incertus_mc::McReport;
 use plotters::prelude::*;
 use statrs::distribution::{Continuous, Normal, StudentsT};
 
+use crate::atomic::write_atomic;
 use crate::report::{self, Style};
-use crate::shell::write_atomic;
 use crate::Failure;
 
 const W: u32 = 720;

@@ -11,6 +11,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod atomic;
 mod derive_cmd;
 mod dipole_cmd;
 mod eval_cmd;

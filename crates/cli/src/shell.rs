@@ -122,25 +122,7 @@ fn home() -> PathBuf {
         .unwrap_or_else(|| PathBuf::from(".incertus"))
 }
 
-/// Write a file atomically: a temporary name in the same folder, renamed.
-pub(crate) fn write_atomic(path: &Path, contents: &str) -> std::io::Result<()> {
-    let dir = path
-        .parent()
-        .filter(|d| !d.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
-    std::fs::create_dir_all(dir)?;
-    let tmp = dir.join(format!(
-        ".{}.tmp-{}",
-        path.file_name().and_then(|n| n.to_str()).unwrap_or("file"),
-        std::process::id()
-    ));
-    {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(contents.as_bytes())?;
-        f.sync_all()?;
-    }
-    std::fs::rename(&tmp, path)
-}
+pub(crate) use crate::atomic::write_atomic;
 
 fn is_name(s: &str) -> bool {
     let mut c = s.chars();
@@ -709,8 +691,9 @@ pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
                 break;
             }
         }
-        let _ = std::fs::create_dir_all(home());
-        let _ = rl.save_history(&history);
+        let _ = crate::atomic::replace_with(&history, |tmp| {
+            rl.save_history(tmp).map_err(std::io::Error::other)
+        });
     } else {
         let stdin = std::io::stdin();
         for line in stdin.lock().lines() {
