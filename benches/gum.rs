@@ -4,6 +4,12 @@
 //! (50 symbolic sensitivity coefficients, budget, ν_eff, k) and write the
 //! JSON report. Target: under 5 ms.
 //!
+//! `conformity/guarded_risk_and_global`: a conformity assessment with a
+//! guard band derived from a 5 % specific risk (bisection on p_c) and the
+//! global risks of a process (adaptive Gauss-Kronrod quadrature).
+//! `coverage/t_quantile_*`: one Student's t quantile (coverage factor) at
+//! small and at large dof.
+//!
 //! Run: `cargo bench --bench gum`.
 
 use criterion::{criterion_group, criterion_main, Criterion};
@@ -56,6 +62,32 @@ fn bench(c: &mut Criterion) {
         })
     });
     let _ = std::fs::remove_dir_all(&dir);
+
+    use incertus::gum::conformity::{assess, Belief, Guard, Process, Rule, Specification};
+    let spec = Specification {
+        lower: Some(9.95),
+        upper: Some(10.05),
+        rule: Rule::GuardedAcceptance,
+        guard: Guard::SpecificRisk(0.05),
+        process: Some(Process {
+            mean: 10.0,
+            standard_deviation: 0.02,
+        }),
+    };
+    let belief = Belief {
+        value: 10.02,
+        standard_uncertainty: 0.01,
+        dof: Some(12.0),
+    };
+    c.bench_function("conformity/guarded_risk_and_global", |b| {
+        b.iter(|| assess(&spec, belief, 0.0218, 2.18, 0.95, Some("g")).unwrap())
+    });
+    c.bench_function("coverage/t_quantile_dof_8", |b| {
+        b.iter(|| incertus::gum::coverage::coverage_factor(0.95, Some(criterion::black_box(8.0))))
+    });
+    c.bench_function("coverage/t_quantile_dof_1e6", |b| {
+        b.iter(|| incertus::gum::coverage::coverage_factor(0.95, Some(criterion::black_box(1e6))))
+    });
 }
 
 criterion_group!(benches, bench);
