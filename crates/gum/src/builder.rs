@@ -106,6 +106,7 @@ pub struct ModelBuilder {
     inputs: Vec<(String, InputBuilder)>,
     correlations: Vec<(String, String, f64)>,
     measurands: Vec<(String, String, Option<String>)>,
+    specifications: Vec<(String, crate::conformity::Specification)>,
 }
 
 impl ModelBuilder {
@@ -135,6 +136,34 @@ impl ModelBuilder {
             formula.to_string(),
             unit.map(str::to_string),
         ));
+        self
+    }
+
+    /// Tolerance limits and a decision rule for a measurand (JCGM 106:2012),
+    /// in the measurand's unit.
+    ///
+    /// ```
+    /// use incertus_gum::builder::ModelBuilder;
+    /// use incertus_gum::conformity::{Guard, Rule, Specification};
+    /// let m = ModelBuilder::new()
+    ///     .input("m", |i| i.value(100.02).standard_uncertainty(0.01))
+    ///     .measurand("M", "m", None)
+    ///     .specification("M", &Specification {
+    ///         lower: Some(99.95), upper: Some(100.05),
+    ///         rule: Rule::GuardedAcceptance, guard: Guard::MultipleOfU(1.0), process: None,
+    ///     })
+    ///     .build()
+    ///     .unwrap();
+    /// let r = incertus_gum::propagate(&m, &Default::default()).unwrap();
+    /// assert_eq!(r.results[0].conformity.as_ref().unwrap().verdict, "accepted");
+    /// ```
+    pub fn specification(
+        mut self,
+        measurand: &str,
+        spec: &crate::conformity::Specification,
+    ) -> Self {
+        self.specifications
+            .push((measurand.to_string(), spec.clone()));
         self
     }
 
@@ -169,6 +198,31 @@ impl ModelBuilder {
             ));
             if let Some(u) = unit {
                 t.push_str(&format!("unit = {}\n", text(u)));
+            }
+            for (_, spec) in self.specifications.iter().filter(|(m, _)| m == name) {
+                use crate::conformity::Guard;
+                t.push_str("\n[measurands.specification]\n");
+                if let Some(l) = spec.lower {
+                    t.push_str(&format!("lower = {}\n", num(l)));
+                }
+                if let Some(u) = spec.upper {
+                    t.push_str(&format!("upper = {}\n", num(u)));
+                }
+                t.push_str(&format!("rule = {}\n", text(spec.rule.name())));
+                match spec.guard {
+                    Guard::None => {}
+                    Guard::MultipleOfU(r) => t.push_str(&format!("guard_multiple = {}\n", num(r))),
+                    Guard::SpecificRisk(a) => {
+                        t.push_str(&format!("max_specific_risk = {}\n", num(a)))
+                    }
+                }
+                if let Some(p) = spec.process {
+                    t.push_str(&format!(
+                        "process_mean = {}\nprocess_standard_deviation = {}\n",
+                        num(p.mean),
+                        num(p.standard_deviation)
+                    ));
+                }
             }
         }
         t
