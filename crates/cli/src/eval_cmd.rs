@@ -104,6 +104,7 @@ pub(crate) fn load(file: &std::path::Path) -> Result<Model, Failure> {
 }
 
 pub(crate) fn evaluate(
+    file: &std::path::Path,
     model: &Model,
     coverage: Option<f64>,
     second_order: bool,
@@ -123,13 +124,16 @@ pub(crate) fn evaluate(
             limits: crate::limits()?,
         },
     )
-    .map_err(|e| Failure::input(e.to_string()))
+    .map_err(|e| match e.line {
+        Some(line) => Failure::input(format!("{}:{line}: {e}", file.display())),
+        None => Failure::input(e.to_string()),
+    })
 }
 
 pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
     let settings = mc_settings(a)?;
-    let mut report = evaluate(&model, a.coverage, a.second_order)?;
+    let mut report = evaluate(&a.file, &model, a.coverage, a.second_order)?;
     let mc = match settings {
         Some(s) => {
             let mc =
@@ -161,7 +165,7 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
 
 pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
-    let report = evaluate(&model, a.coverage, false)?;
+    let report = evaluate(&a.file, &model, a.coverage, false)?;
     let c = check(&model, &report);
     let mut text = format!("check of {}\n", a.file.display());
     if c.items.is_empty() {

@@ -60,12 +60,24 @@ fn checked_derivative(
 pub struct PropagationError {
     pub message: String,
     pub detail: Option<String>,
+    /// The line of the model file where the measurand concerned is defined.
+    pub line: Option<usize>,
+}
+
+impl PropagationError {
+    fn at(mut self, line: usize) -> Self {
+        if self.line.is_none() && line > 0 {
+            self.line = Some(line);
+        }
+        self
+    }
 }
 
 fn perr(message: impl Into<String>, detail: Option<String>) -> PropagationError {
     PropagationError {
         message: message.into(),
         detail,
+        line: None,
     }
 }
 
@@ -260,6 +272,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 ),
                 Some(incertus_expr::caret(&m.formula_text, e.span)),
             )
+            .at(m.line)
         })?;
         env.push((m.name.as_str(), v));
         values.push(v);
@@ -280,7 +293,8 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             if !f.depends_on(name) {
                 continue;
             }
-            let d = checked_derivative(f, name, opts.limits.max_derivative_nodes, &m.name)?;
+            let d = checked_derivative(f, name, opts.limits.max_derivative_nodes, &m.name)
+                .map_err(|e| e.at(m.line))?;
             let ci: f64 = d.eval(input_env.as_slice()).map_err(|e| {
                 perr(
                     format!(
@@ -290,6 +304,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                     ),
                     Some(format!("∂{}/∂{name} = {}", m.name, print(&d))),
                 )
+                .at(m.line)
             })?;
             c[i] = ci;
             formulas[i] = print(&d);
@@ -372,16 +387,19 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
 
         // Second-order terms (JCGM 100:2008, 5.1.2 note, eq. 10 extended).
         let second = if opts.second_order {
-            Some(second_order(
-                model,
-                m.name.as_str(),
-                f,
-                &used,
-                &u,
-                uc,
-                &input_env,
-                opts.limits.max_derivative_nodes,
-            )?)
+            Some(
+                second_order(
+                    model,
+                    m.name.as_str(),
+                    f,
+                    &used,
+                    &u,
+                    uc,
+                    &input_env,
+                    opts.limits.max_derivative_nodes,
+                )
+                .map_err(|e| e.at(m.line))?,
+            )
         } else {
             None
         };
@@ -478,7 +496,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                     p,
                     m.unit.as_deref(),
                 )
-                .map_err(|e| perr(format!("measurand `{}`: {e}", m.name), None))?,
+                .map_err(|e| perr(format!("measurand `{}`: {e}", m.name), None).at(m.line))?,
             );
         }
         sens_rows.push(c);
