@@ -102,6 +102,10 @@ fn a_report_folder_quotes_the_statement() {
     assert!(html.contains("<h2>Conformity (JCGM 106:2012)</h2>"));
     assert!(html.contains("Decision rule: guarded acceptance"));
     assert!(html.contains("ISO/IEC 17025:2017, 7.1.3"));
+    let svg = std::fs::read_to_string(out_dir.join("conformity_V.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).expect("well-formed SVG");
+    assert_eq!(doc.root_element().tag_name().name(), "svg");
+    assert!(svg.contains("tolerance limits") && svg.contains("acceptance limits"));
     let _ = std::fs::remove_dir_all(&dir);
 }
 

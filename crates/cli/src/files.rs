@@ -202,6 +202,134 @@ fn monte_carlo_svg(
     Ok(svg)
 }
 
+/// The first-order distribution of a measurand against its tolerance
+/// interval (JCGM 106:2012): the parts of the curve outside the tolerance
+/// shaded (their area is 1 − p_c), the tolerance limits as thick lines, the
+/// acceptance limits as thin ones, the measured value dotted.
+fn conformity_svg(
+    r: &incertus_gum::MeasurandResult,
+    c: &incertus_gum::conformity::Conformity,
+) -> Result<String, String> {
+    let u = r.standard_uncertainty.max(f64::MIN_POSITIVE);
+    let y = r.value;
+    let pdf = |x: f64| -> f64 {
+        match r.effective_dof_used {
+            Some(nu) => StudentsT::new(y, u, nu).map(|d| d.pdf(x)).unwrap_or(0.0),
+            None => Normal::new(y, u).map(|d| d.pdf(x)).unwrap_or(0.0),
+        }
+    };
+    // Limits further than 10 u from the value are left out of the picture.
+    let near = |v: Option<f64>| v.filter(|v| (v - y).abs() <= 10.0 * u);
+    let (al, ah) = match c.acceptance_interval {
+        Some([a, b]) => (a, b),
+        None => (None, None),
+    };
+    let marks: Vec<f64> = [c.lower_limit, c.upper_limit, al, ah]
+        .into_iter()
+        .filter_map(near)
+        .collect();
+    let x0 = marks.iter().copied().fold(y - 4.0 * u, f64::min) - 0.5 * u;
+    let x1 = marks.iter().copied().fold(y + 4.0 * u, f64::max) + 0.5 * u;
+    let curve: Vec<(f64, f64)> = (0..=400)
+        .map(|i| x0 + (x1 - x0) * i as f64 / 400.0)
+        .map(|x| (x, pdf(x)))
+        .collect();
+    let ymax = curve
+        .iter()
+        .map(|p| p.1)
+        .fold(0.0, f64::max)
+        .max(f64::MIN_POSITIVE)
+        * 1.15;
+    let unit = r
+        .unit
+        .as_ref()
+        .map(|u| format!(" / {u}"))
+        .unwrap_or_default();
+    let lo = c.lower_limit.unwrap_or(f64::NEG_INFINITY);
+    let hi = c.upper_limit.unwrap_or(f64::INFINITY);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (W, H)).into_drawing_area();
+        root.fill(&WHITE).map_err(perr)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!(
+                    "{}: p_c = {} under {}, {}",
+                    r.name,
+                    incertus_gum::conformity::probability(c.conformance_probability),
+                    c.rule,
+                    c.verdict
+                ),
+                ("sans-serif", 17),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, 0.0..ymax)
+            .map_err(perr)?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("{}{unit}", r.name))
+            .y_desc("probability density")
+            .draw()
+            .map_err(perr)?;
+        let outside: Vec<(f64, f64)> = curve
+            .iter()
+            .map(|&(x, d)| (x, if x < lo || x > hi { d } else { 0.0 }))
+            .collect();
+        chart
+            .draw_series(AreaSeries::new(outside, 0.0, LIGHT.filled()))
+            .map_err(perr)?
+            .label("outside the tolerance (area 1 − p_c)")
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 16, y + 5)], LIGHT.filled()));
+        chart
+            .draw_series(LineSeries::new(curve, DARK.stroke_width(2)))
+            .map_err(perr)?
+            .label("first-order distribution of the measurand")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], DARK.stroke_width(2)));
+        let vline = |x: f64| vec![(x, 0.0), (x, ymax * 0.95)];
+        let tol: Vec<f64> = [c.lower_limit, c.upper_limit]
+            .into_iter()
+            .filter_map(near)
+            .collect();
+        chart
+            .draw_series(
+                tol.into_iter()
+                    .map(|x| PathElement::new(vline(x), DARK.stroke_width(3))),
+            )
+            .map_err(perr)?
+            .label("tolerance limits")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], DARK.stroke_width(3)));
+        if c.rule != "simple acceptance" {
+            let acc: Vec<f64> = [al, ah].into_iter().filter_map(near).collect();
+            chart
+                .draw_series(
+                    acc.into_iter()
+                        .map(|x| PathElement::new(vline(x), MID.stroke_width(2))),
+                )
+                .map_err(perr)?
+                .label("acceptance limits")
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], MID.stroke_width(2)));
+        }
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vline(y),
+                MID.stroke_width(1),
+            )))
+            .map_err(perr)?
+            .label("measured value")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], MID.stroke_width(1)));
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(MID)
+            .draw()
+            .map_err(perr)?;
+        root.present().map_err(perr)?;
+    }
+    Ok(svg)
+}
+
 /// u(ŷ) at x from the parameters' covariance (g = 1, x, x², ...).
 fn u_fit(f: &FitResult, x: f64) -> f64 {
     let p = f.parameters.len();
@@ -437,6 +565,16 @@ pub fn write_report(
             format!("Contributions to u²({})", r.name),
             contributions_svg(r).map_err(Failure::input)?,
         ));
+        if let Some(c) = &r.conformity {
+            plots.push((
+                format!("conformity_{}.svg", slug(&r.name)),
+                format!(
+                    "Conformity of {} with its tolerance (JCGM 106:2012)",
+                    r.name
+                ),
+                conformity_svg(r, c).map_err(Failure::input)?,
+            ));
+        }
         if let Some(m) = mc.and_then(|mc| mc.results.iter().find(|m| m.name == r.name)) {
             plots.push((
                 format!("monte_carlo_{}.svg", slug(&r.name)),
