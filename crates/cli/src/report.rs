@@ -255,8 +255,12 @@ fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
             c.rule, c.guard_band_rule
         ),
         format!(
-            "  guard band                         w = {}{unit}",
-            significant(c.guard_band, 3)
+            "  guard band                         {}",
+            c.guard_band
+                .map_or("none gives the target risk".to_string(), |w| format!(
+                    "w = {}{unit}",
+                    significant(w, 3)
+                ))
         ),
         format!(
             "  acceptance interval                {}",
@@ -858,7 +862,7 @@ fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static st
         ("lower_limit", opt(c.lower_limit)),
         ("upper_limit", opt(c.upper_limit)),
         ("rule", csv_field(&c.rule)),
-        ("guard_band", format!("{:e}", c.guard_band)),
+        ("guard_band", opt(c.guard_band)),
     ];
     match c.acceptance_interval {
         Some([a, b]) => {

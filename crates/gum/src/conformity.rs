@@ -254,8 +254,9 @@ pub struct Conformity {
     pub rule: String,
     /// How the guard band was set, in words.
     pub guard_band_rule: String,
-    /// w (0 for simple acceptance).
-    pub guard_band: f64,
+    /// w (0 for simple acceptance; `None` when no guard band gives the
+    /// target risk, so that nothing can be accepted).
+    pub guard_band: Option<f64>,
     /// The acceptance interval; `None` when no measured value is accepted.
     pub acceptance_interval: Option<[Option<f64>; 2]>,
     /// The first-order distribution used, in words.
@@ -392,7 +393,7 @@ pub fn assess(
         upper_limit: hi,
         rule: spec.rule.name().to_string(),
         guard_band_rule: guard_text,
-        guard_band: w,
+        guard_band: (!w.is_nan()).then_some(w),
         acceptance_interval: acceptance,
         distribution,
         conformance_probability: pc,
@@ -664,6 +665,11 @@ fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> 
         ),
     };
     let rule = match c.rule.as_str() {
+        _ if c.acceptance_interval.is_none() => format!(
+            "Decision rule: {} (JCGM 106:2012, clause 8), {}: with this uncertainty no measured value \
+             can be accepted, as the tolerance interval {tolerance} leaves no room for the guard band.",
+            c.rule, c.guard_band_rule
+        ),
         "simple acceptance" => format!(
             "Decision rule: simple acceptance (JCGM 106:2012, clause 8): the item is accepted when the \
              measured value lies in the tolerance interval {tolerance}, limits included."
