@@ -1,7 +1,7 @@
 //! Bounded-time fuzzing of the four readers of user text: the formula
 //! parser (with everything done to a formula afterwards), the model-file
-//! loader (with propagation, second-order terms, conformity and a short
-//! Monte Carlo run), the CSV reader (with a fit) and the shell's statements.
+//! loader (with propagation, second-order terms, conformity, a short
+//! Monte Carlo run, every report writer and every plot), the CSV reader (with a fit) and the shell's statements.
 //!
 //! `cargo fuzz` needs a nightly compiler and this project builds on stable
 //! only, so this is a mutation fuzzer of our own, run as a test: seeds from
@@ -147,7 +147,7 @@ fn mutate(rng: &mut Rng, input: &[u8], corpus: &[Vec<u8>], dict: &[&str]) -> Vec
     let mut v = input.to_vec();
     for _ in 0..1 + rng.below(4) {
         let len = v.len();
-        match rng.below(9) {
+        match rng.below(10) {
             0 if len > 0 => {
                 let i = rng.below(len);
                 v[i] ^= 1 << rng.below(8);
@@ -193,6 +193,16 @@ fn mutate(rng: &mut Rng, input: &[u8], corpus: &[Vec<u8>], dict: &[&str]) -> Vec
                     let at = rng.below(len + 1);
                     v.splice(at..at, other[a..b].iter().copied());
                 }
+            }
+            8 => {
+                // A token at the start of a line keeps line-based formats
+                // (TOML, CSV, shell scripts) mostly well formed.
+                let starts: Vec<usize> = std::iter::once(0)
+                    .chain((0..len).filter(|&i| v[i] == b'\n').map(|i| i + 1))
+                    .collect();
+                let at = starts[rng.below(starts.len())];
+                let t = dict[rng.below(dict.len())].as_bytes();
+                v.splice(at..at, t.iter().copied());
             }
             _ if len > 1 => {
                 v.truncate(rng.below(len));
@@ -319,6 +329,13 @@ fn model_target(input: &[u8]) -> Result<String, String> {
     let mc = incertus::mc::run(&model, &report, &settings).map_err(|e| format!("mc: {e}"))?;
     let mut report = report;
     incertus::mc::attach(&model, &mut report, &mc);
+    // Every writer and every plot of a report folder, in memory.
+    let style = incertus_cli::report::Style { digits: 2 };
+    let _ = incertus_cli::report::text(&report, style, Some(&mc));
+    let _ = incertus_cli::report::markdown(&report, style, Some(&mc));
+    let _ = incertus_cli::report::json(&report, Some(&mc));
+    let _ = incertus_cli::report::csv(&report);
+    let _ = incertus_cli::files::plots(&report, Some(&mc), &[]);
     Ok(String::new())
 }
 
@@ -344,7 +361,21 @@ fn csv_target(input: &[u8]) -> Result<String, String> {
 
 fn shell_target(input: &[u8]) -> Result<String, String> {
     let text = String::from_utf8_lossy(input);
-    let out = incertus_cli::run_statements(text.lines());
+    // A `montecarlo NAME TRIALS` asking for millions of trials is honoured
+    // by the shell (within the memory check); here it would only slow the
+    // search, so the trial count is capped.
+    let lines: Vec<String> = text
+        .lines()
+        .map(|l| {
+            let t = l.trim_start();
+            if t.starts_with("montecarlo") {
+                t.split_whitespace().take(2).collect::<Vec<_>>().join(" ") + " 2000"
+            } else {
+                l.to_string()
+            }
+        })
+        .collect();
+    let out = incertus_cli::run_statements(lines.iter().map(String::as_str));
     match out.iter().find(|l| l.starts_with("error:")) {
         Some(e) => Err(e.clone()),
         None => Ok(String::new()),
@@ -475,6 +506,8 @@ fn fuzz(target: &'static str, run: fn(&[u8]) -> Result<String, String>, ext: Opt
     let dict = dictionary(target);
     let deadline = Instant::now() + Duration::from_secs(seconds);
     let mut runs = 0u64;
+    // Inputs that went through the whole target without an error.
+    let mut whole = 0u64;
     // INCERTUS_FUZZ_SHOW=N prints the first N new outcomes (to tune the
     // signature).
     let mut show: usize = std::env::var("INCERTUS_FUZZ_SHOW")
@@ -482,13 +515,26 @@ fn fuzz(target: &'static str, run: fn(&[u8]) -> Result<String, String>, ext: Opt
         .and_then(|s| s.parse().ok())
         .unwrap_or(0);
     let mut slowest = Duration::ZERO;
+    // Inputs that went all the way are picked as parents half of the time,
+    // so that mutations explore the deep end of the target too.
+    let mut accepted: Vec<Vec<u8>> = seeds.clone();
     while Instant::now() < deadline {
-        let parent = &corpus[rng.below(corpus.len())];
+        let parent = if rng.below(2) == 0 {
+            &accepted[rng.below(accepted.len())]
+        } else {
+            &corpus[rng.below(corpus.len())]
+        };
         let child = mutate(&mut rng, parent, &corpus, dict);
         let t = Instant::now();
         let sig = check(exec(&child));
         slowest = slowest.max(t.elapsed());
         runs += 1;
+        if sig.starts_with("ok") {
+            whole += 1;
+            if accepted.len() < 5000 && !seen.contains(&sig) {
+                accepted.push(child.clone());
+            }
+        }
         if show > 0 && !seen.contains(&sig) {
             show -= 1;
             eprintln!("fuzz {target}: new outcome {sig:?}");
@@ -499,7 +545,7 @@ fn fuzz(target: &'static str, run: fn(&[u8]) -> Result<String, String>, ext: Opt
     }
     done.store(true, Ordering::Relaxed);
     eprintln!(
-        "fuzz {target}: seed {seed}, {runs} inputs in {seconds} s, {} outcomes, corpus {} (from {} seeds, {} regressions), slowest input {:.1} ms",
+        "fuzz {target}: seed {seed}, {runs} inputs in {seconds} s ({whole} accepted all the way), {} outcomes, corpus {} (from {} seeds, {} regressions), slowest input {:.1} ms",
         seen.len(),
         corpus.len(),
         seeds.len(),

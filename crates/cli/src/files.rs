@@ -33,6 +33,31 @@ fn perr<E: std::fmt::Debug>(e: E) -> String {
 }
 
 /// A file name part from a name (letters, digits, `_`).
+/// An axis range the plotting library can lay out: finite, ordered, not
+/// wider than 1e300 nor narrower than 1e-12 of its magnitude (plotters
+/// loops for ever laying out the ticks of a range near 1e308). A range
+/// that cannot be drawn is an error naming the plot; a degenerate one is
+/// widened around its centre.
+fn axis(what: &str, lo: f64, hi: f64) -> Result<std::ops::Range<f64>, String> {
+    let bad = || {
+        format!("cannot draw the {what}: its values ({lo:e} to {hi:e}) are too large for a plot")
+    };
+    if !lo.is_finite() || !hi.is_finite() || lo.abs() > 1e300 || hi.abs() > 1e300 {
+        return Err(bad());
+    }
+    let (lo, hi) = if lo <= hi { (lo, hi) } else { (hi, lo) };
+    let mag = lo.abs().max(hi.abs());
+    let min_width = (1e-12 * mag).max(1e-300);
+    if hi - lo < min_width {
+        let c = 0.5 * (lo + hi);
+        return Ok((c - min_width)..(c + min_width));
+    }
+    if !(hi - lo).is_finite() {
+        return Err(bad());
+    }
+    Ok(lo..hi)
+}
+
 fn slug(s: &str) -> String {
     s.chars()
         .map(|c| {
@@ -68,7 +93,10 @@ fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(60)
-            .build_cartesian_2d(-0.5f64..(n as f64 - 0.5), lo..hi)
+            .build_cartesian_2d(
+                -0.5f64..(n as f64 - 0.5),
+                axis("contributions plot", lo, hi)?,
+            )
             .map_err(perr)?;
         let names = labels.clone();
         chart
@@ -148,7 +176,10 @@ fn monte_carlo_svg(
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(70)
-            .build_cartesian_2d(x0..x1, 0.0..ymax.max(f64::MIN_POSITIVE))
+            .build_cartesian_2d(
+                axis("Monte Carlo histogram", x0, x1)?,
+                axis("Monte Carlo histogram", 0.0, ymax.max(f64::MIN_POSITIVE))?,
+            )
             .map_err(perr)?;
         chart
             .configure_mesh()
@@ -210,7 +241,10 @@ fn conformity_svg(
     r: &incertus_gum::MeasurandResult,
     c: &incertus_gum::conformity::Conformity,
 ) -> Result<String, String> {
-    let u = r.standard_uncertainty.max(f64::MIN_POSITIVE);
+    if r.standard_uncertainty == 0.0 {
+        return Err("the result has no uncertainty, so there is no distribution to draw".into());
+    }
+    let u = r.standard_uncertainty;
     let y = r.value;
     let pdf = |x: f64| -> f64 {
         match r.effective_dof_used {
@@ -265,7 +299,10 @@ fn conformity_svg(
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(70)
-            .build_cartesian_2d(x0..x1, 0.0..ymax)
+            .build_cartesian_2d(
+                axis("conformity plot", x0, x1)?,
+                axis("conformity plot", 0.0, ymax)?,
+            )
             .map_err(perr)?;
         chart
             .configure_mesh()
@@ -461,7 +498,10 @@ fn fit_svgs(
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(70)
-            .build_cartesian_2d(x0..x1, (y0 - ypad)..(y1 + ypad))
+            .build_cartesian_2d(
+                axis("fit plot", x0, x1)?,
+                axis("fit plot", y0 - ypad, y1 + ypad)?,
+            )
             .map_err(perr)?;
         chart
             .configure_mesh()
@@ -505,7 +545,10 @@ fn fit_svgs(
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(70)
-            .build_cartesian_2d(x0..x1, -rmax..rmax)
+            .build_cartesian_2d(
+                axis("residual plot", x0, x1)?,
+                axis("residual plot", -rmax, rmax)?,
+            )
             .map_err(perr)?;
         chart
             .configure_mesh()
@@ -527,6 +570,80 @@ fn esc(s: &str) -> String {
         .replace('<', "&lt;")
         .replace('>', "&gt;")
         .replace('"', "&quot;")
+}
+
+/// The plots of a report folder, made in memory (also used by the fuzz
+/// tests, so that no input can make a plot panic or hang).
+#[derive(Debug, Default)]
+pub struct Plots {
+    /// (file name, caption, SVG text).
+    pub drawn: Vec<(String, String, String)>,
+    /// Plots that could not be drawn, with the reason (stated in the report).
+    pub not_drawn: Vec<String>,
+}
+
+pub fn plots(
+    report: &Report,
+    mc: Option<&McReport>,
+    extra_fits: &[(String, String, String, FitResult)],
+) -> Plots {
+    let mut p = Plots::default();
+    let mut add = |file: String, caption: String, svg: Result<String, String>| match svg {
+        Ok(svg) => p.drawn.push((file, caption, svg)),
+        Err(e) => p.not_drawn.push(format!("{file}: {e}")),
+    };
+    for r in &report.results {
+        add(
+            format!("contributions_{}.svg", slug(&r.name)),
+            format!("Contributions to u²({})", r.name),
+            contributions_svg(r),
+        );
+        if let Some(c) = &r.conformity {
+            add(
+                format!("conformity_{}.svg", slug(&r.name)),
+                format!(
+                    "Conformity of {} with its tolerance (JCGM 106:2012)",
+                    r.name
+                ),
+                conformity_svg(r, c),
+            );
+        }
+        if let Some(m) = mc.and_then(|mc| mc.results.iter().find(|m| m.name == r.name)) {
+            add(
+                format!("monte_carlo_{}.svg", slug(&r.name)),
+                format!("Propagation of distributions for {}", r.name),
+                monte_carlo_svg(r, m),
+            );
+        }
+    }
+    let mut fits: Vec<(String, String, String, &FitResult)> = report
+        .fits
+        .iter()
+        .map(|f| (f.name.clone(), f.x.clone(), f.y.clone(), &f.result))
+        .collect();
+    fits.extend(
+        extra_fits
+            .iter()
+            .map(|(n, x, y, f)| (n.clone(), x.clone(), y.clone(), f)),
+    );
+    for (name, x, y, f) in &fits {
+        match fit_svgs(name, x, y, f) {
+            Ok((data, resid)) => {
+                add(
+                    format!("fit_{}.svg", slug(name)),
+                    format!("Fit {name}: data, line and band"),
+                    Ok(data),
+                );
+                add(
+                    format!("residuals_{}.svg", slug(name)),
+                    format!("Fit {name}: residuals"),
+                    Ok(resid),
+                );
+            }
+            Err(e) => add(format!("fit_{}.svg", slug(name)), String::new(), Err(e)),
+        }
+    }
+    p
 }
 
 /// Write the report folder.
@@ -558,54 +675,10 @@ pub fn write_report(
     std::fs::create_dir_all(dir)
         .map_err(|e| Failure::input(format!("cannot create {}: {e}", dir.display())))?;
     let mut files: Vec<(String, String)> = Vec::new();
-    let mut plots: Vec<(String, String, String)> = Vec::new(); // (file, title, svg)
-    for r in &report.results {
-        plots.push((
-            format!("contributions_{}.svg", slug(&r.name)),
-            format!("Contributions to u²({})", r.name),
-            contributions_svg(r).map_err(Failure::input)?,
-        ));
-        if let Some(c) = &r.conformity {
-            plots.push((
-                format!("conformity_{}.svg", slug(&r.name)),
-                format!(
-                    "Conformity of {} with its tolerance (JCGM 106:2012)",
-                    r.name
-                ),
-                conformity_svg(r, c).map_err(Failure::input)?,
-            ));
-        }
-        if let Some(m) = mc.and_then(|mc| mc.results.iter().find(|m| m.name == r.name)) {
-            plots.push((
-                format!("monte_carlo_{}.svg", slug(&r.name)),
-                format!("Propagation of distributions for {}", r.name),
-                monte_carlo_svg(r, m).map_err(Failure::input)?,
-            ));
-        }
-    }
-    let mut fits: Vec<(String, String, String, &FitResult)> = report
-        .fits
-        .iter()
-        .map(|f| (f.name.clone(), f.x.clone(), f.y.clone(), &f.result))
-        .collect();
-    fits.extend(
-        extra_fits
-            .iter()
-            .map(|(n, x, y, f)| (n.clone(), x.clone(), y.clone(), f)),
-    );
-    for (name, x, y, f) in &fits {
-        let (data, resid) = fit_svgs(name, x, y, f).map_err(Failure::input)?;
-        plots.push((
-            format!("fit_{}.svg", slug(name)),
-            format!("Fit {name}: data, line and band"),
-            data,
-        ));
-        plots.push((
-            format!("residuals_{}.svg", slug(name)),
-            format!("Fit {name}: residuals"),
-            resid,
-        ));
-    }
+    let Plots {
+        drawn: plots,
+        not_drawn,
+    } = plots(report, mc, extra_fits);
     let text = report::text(report, style, mc);
     let md = report::markdown(report, style, mc);
     let json = report::json(report, mc);
@@ -650,6 +723,9 @@ pub fn write_report(
     html.push_str("<h2>Inputs, budget and result</h2>\n<pre>");
     html.push_str(&esc(&text));
     html.push_str("</pre>\n<h2>Plots</h2>\n");
+    for n in &not_drawn {
+        html.push_str(&format!("<p>Not drawn: {}</p>\n", esc(n)));
+    }
     for (file, caption, svg) in &plots {
         html.push_str(&format!(
             "<figure>\n{}\n<figcaption>{} ({})</figcaption>\n</figure>\n",
@@ -673,5 +749,6 @@ pub fn write_report(
             .map_err(|e| Failure::input(format!("cannot write {}: {e}", p.display())))?;
         written.push(name.clone());
     }
+    written.extend(not_drawn.iter().map(|n| format!("(not drawn: {n})")));
     Ok(written)
 }

@@ -15,7 +15,7 @@ mod atomic;
 mod derive_cmd;
 mod dipole_cmd;
 mod eval_cmd;
-mod files;
+pub mod files;
 mod fit_cmd;
 pub mod report;
 mod shell;
