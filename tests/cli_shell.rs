@@ -130,3 +130,38 @@ fn the_recovery_file_is_offered_to_the_next_session() {
     assert!(out.contains("loaded 1 definitions"), "{out}");
     assert!(out.contains("3.00 ± 0.20"), "{out}");
 }
+
+#[test]
+fn a_specification_in_the_shell() {
+    // q = x·y = 6.00 with u = 0.5 (JCGM 100:2008, 5.1.6 relative rule, as
+    // above); tolerance [5, 7] is ±2u: p_c = 2Φ(2) − 1 = 95.45 % (standard
+    // normal table, value recalled from memory).
+    let dir = scratch("shell-spec");
+    let (code, out) = session(
+        "x = 2.0 ± 0.1\ny = 3.0 +- 0.2\nq = x*y\n\
+         specify q lower=5 upper=7 rule=guarded-acceptance guard=1\n\
+         save spec.toml\nspecify q lower=7 upper=5\nspecify q off\nquit\n",
+        &dir.join("home"),
+        &dir,
+    );
+    assert_eq!(code, 1, "the reversed limits are an error of the script");
+    for f in [
+        "conformity assessment of q (JCGM 106:2012)",
+        "acceptance interval                [5.98, 6.02]",
+        "conformance probability p_c        95.45 %",
+        "verdict                            ACCEPTED, specific consumer's risk 4.55 %",
+        "error: the upper limit 5.0 must be greater than the lower limit 7.0",
+        "q: no specification",
+    ] {
+        assert!(out.contains(f), "missing {f:?} in\n{out}");
+    }
+    // The saved session carries the specification, and eval gives the same verdict.
+    let ev = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .args(["eval", "spec.toml", "--format", "json"])
+        .current_dir(&dir)
+        .output()
+        .unwrap();
+    let v: serde_json::Value = serde_json::from_slice(&ev.stdout).unwrap();
+    assert_eq!(v["results"][0]["conformity"]["verdict"], "accepted");
+    assert_eq!(v["results"][0]["conformity"]["rule"], "guarded acceptance");
+}

@@ -223,7 +223,7 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
 /// The lines of a conformity assessment (JCGM 106:2012), shared by text
 /// and Markdown; the statement comes last, as one line a certificate can
 /// quote.
-fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
+pub(crate) fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
     let Some(c) = &r.conformity else {
         return Vec::new();
     };

@@ -51,6 +51,8 @@ struct State {
     correlations: Vec<(String, String, f64)>,
     /// Results: name, formula, unit to report in.
     results: Vec<(String, String, Option<String>)>,
+    /// Specifications of results (JCGM 106:2012): name and model-file keys.
+    specs: Vec<(String, Vec<(String, String)>)>,
 }
 
 impl State {
@@ -77,6 +79,12 @@ impl State {
             ));
             if let Some(u) = unit {
                 t.push_str(&format!("unit = {}\n", text(u)));
+            }
+            if let Some((_, keys)) = self.specs.iter().find(|(n, _)| n == name) {
+                t.push_str("\n[measurands.specification]\n");
+                for (k, v) in keys {
+                    t.push_str(&format!("{k} = {v}\n"));
+                }
             }
         }
         t
@@ -304,6 +312,8 @@ const HELP: &str = "statements:
   y = formula                 a result, printed at once (y = formula [unit] to report in a unit)
   formula                     its value and uncertainty
 commands:
+  specify NAME lower=L upper=U [rule=guarded-acceptance|guarded-rejection] [guard=R | risk=A]
+                              tolerance limits and a decision rule (JCGM 106:2012); specify NAME off
   budget NAME, sensitivities NAME, montecarlo NAME [TRIALS], correlate A B R,
   list, save FILE (save! FILE replaces), load FILE, recover, help, quit";
 
@@ -341,6 +351,7 @@ impl Shell {
             "sensitivities" if is_name(arg) => self.sensitivities(arg),
             "montecarlo" if !arg.is_empty() => self.montecarlo(arg),
             "correlate" if !arg.is_empty() => self.correlate(arg),
+            "specify" if !arg.is_empty() => self.specify(arg),
             "save" | "save!" | "load" | "recover" if !self.files => self.say(format!(
                 "error: `{cmd}` is not available here (files are off)"
             )),
@@ -419,6 +430,74 @@ impl Shell {
         }
     }
 
+    /// `specify NAME key=value ...`: a tolerance and decision rule for a
+    /// result, checked by the model loader like a file's specification.
+    fn specify(&mut self, arg: &str) {
+        let mut words = arg.split_whitespace();
+        let name = words.next().unwrap_or("");
+        if !self.state.results.iter().any(|(n, _, _)| n == name) {
+            return self.say(format!(
+                "error: `{name}` is not a result (define it with {name} = formula, then specify it)"
+            ));
+        }
+        let mut next = self.state.clone();
+        next.specs.retain(|(n, _)| n != name);
+        let rest: Vec<&str> = words.collect();
+        if rest == ["off"] {
+            self.state = next;
+            return self.say(format!("{name}: no specification"));
+        }
+        let mut keys = Vec::new();
+        for w in rest {
+            let Some((k, v)) = w.split_once('=') else {
+                return self.say(format!(
+                    "error: `{w}`: write key=value (lower, upper, rule, guard, risk, process_mean, process_sd)"
+                ));
+            };
+            let key = match k {
+                "lower" | "upper" | "process_mean" => k,
+                "process_sd" => "process_standard_deviation",
+                "guard" => "guard_multiple",
+                "risk" => "max_specific_risk",
+                "rule" => {
+                    let rule = match v {
+                        "simple" | "simple-acceptance" => "simple acceptance",
+                        "guarded-acceptance" => "guarded acceptance",
+                        "guarded-rejection" => "guarded rejection",
+                        other => {
+                            return self.say(format!(
+                                "error: unknown rule `{other}`: simple, guarded-acceptance or guarded-rejection"
+                            ))
+                        }
+                    };
+                    keys.push(("rule".to_string(), text(rule)));
+                    continue;
+                }
+                other => {
+                    return self.say(format!(
+                        "error: unknown key `{other}`: lower, upper, rule, guard, risk, process_mean, process_sd"
+                    ))
+                }
+            };
+            match v.parse::<f64>() {
+                Ok(x) if x.is_finite() => keys.push((key.to_string(), format!("{x:?}"))),
+                _ => return self.say(format!("error: `{k}` needs a number, found `{v}`")),
+            }
+        }
+        next.specs.push((name.to_string(), keys));
+        match next.evaluate(None) {
+            Ok((_, report)) => {
+                self.state = next;
+                if let Some(r) = report.results.iter().find(|r| r.name == name) {
+                    for l in crate::report::conformity_lines(r) {
+                        self.say(l);
+                    }
+                }
+            }
+            Err(e) => self.say(format!("error: {e}")),
+        }
+    }
+
     fn list(&mut self) {
         let Ok((_, report)) = self.state.evaluate(None) else {
             return self.say("error: the definitions cannot be evaluated");
@@ -438,6 +517,22 @@ impl Shell {
         }
         for (a, b, r) in &self.state.correlations.clone() {
             self.say(format!("correlation r({a}, {b}) = {r}"));
+        }
+        for (name, keys) in &self.state.specs.clone() {
+            if let Some(c) = report
+                .results
+                .iter()
+                .find(|r| &r.name == name)
+                .and_then(|r| r.conformity.as_ref())
+            {
+                let given: Vec<String> = keys.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+                self.say(format!(
+                    "specification of {name}: {}; {}, p_c = {}",
+                    given.join(", "),
+                    c.verdict,
+                    incertus_gum::conformity::probability(c.conformance_probability)
+                ));
+            }
         }
     }
 
@@ -615,6 +710,14 @@ impl Shell {
                 ) {
                     let unit = m.get("unit").and_then(|v| v.as_str()).map(str::to_string);
                     st.results.push((n.to_string(), f.to_string(), unit));
+                    if let Some(toml::Value::Table(spec)) = m.get("specification") {
+                        st.specs.push((
+                            n.to_string(),
+                            spec.iter()
+                                .map(|(k, v)| (k.clone(), v.to_string()))
+                                .collect(),
+                        ));
+                    }
                 }
             }
         }
