@@ -126,6 +126,18 @@ fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String
     Ok(svg)
 }
 
+/// The density of the first-order distribution of a result: normal, or
+/// Student's t with the dof used for k, scaled by u_c and centred on y.
+fn first_order_pdf(r: &incertus_gum::MeasurandResult) -> impl Fn(f64) -> f64 + '_ {
+    let u = r.standard_uncertainty.max(f64::MIN_POSITIVE);
+    move |x: f64| match r.effective_dof_used {
+        Some(nu) => StudentsT::new(r.value, u, nu)
+            .map(|d| d.pdf(x))
+            .unwrap_or(0.0),
+        None => Normal::new(r.value, u).map(|d| d.pdf(x)).unwrap_or(0.0),
+    }
+}
+
 /// The Monte Carlo histogram with the first-order distribution and both
 /// coverage intervals.
 fn monte_carlo_svg(
@@ -137,15 +149,7 @@ fn monte_carlo_svg(
     let w = (h.edges[1] - h.edges[0]).max(f64::MIN_POSITIVE);
     let dens: Vec<f64> = h.counts.iter().map(|c| *c as f64 / (total * w)).collect();
     let (x0, x1) = (h.edges[0], *h.edges.last().expect("edges"));
-    let first_order = |x: f64| -> f64 {
-        let u = r.standard_uncertainty.max(f64::MIN_POSITIVE);
-        match r.effective_dof_used {
-            Some(nu) => StudentsT::new(r.value, u, nu)
-                .map(|d| d.pdf(x))
-                .unwrap_or(0.0),
-            None => Normal::new(r.value, u).map(|d| d.pdf(x)).unwrap_or(0.0),
-        }
-    };
+    let first_order = first_order_pdf(r);
     let curve: Vec<(f64, f64)> = (0..=200)
         .map(|i| x0 + (x1 - x0) * i as f64 / 200.0)
         .map(|x| (x, first_order(x)))
@@ -246,12 +250,7 @@ fn conformity_svg(
     }
     let u = r.standard_uncertainty;
     let y = r.value;
-    let pdf = |x: f64| -> f64 {
-        match r.effective_dof_used {
-            Some(nu) => StudentsT::new(y, u, nu).map(|d| d.pdf(x)).unwrap_or(0.0),
-            None => Normal::new(y, u).map(|d| d.pdf(x)).unwrap_or(0.0),
-        }
-    };
+    let pdf = first_order_pdf(r);
     // Limits further than 10 u from the value are left out of the picture.
     let near = |v: Option<f64>| v.filter(|v| (v - y).abs() <= 10.0 * u);
     let (al, ah) = match c.acceptance_interval {
