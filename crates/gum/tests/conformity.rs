@@ -326,3 +326,55 @@ fn specification_errors_name_the_key() {
         assert!(e.contains("measurands[0].specification"), "{e}");
     }
 }
+
+#[test]
+fn global_risks_agree_with_a_simulation_of_the_process() {
+    // Draw true values from the process N(10, 0.02) and measured values
+    // around them with u = 0.005 (JCGM 106:2012, clause 9 defines the risks
+    // as these joint probabilities); count accepted non-conforming and
+    // rejected conforming items. 2·10⁶ items: the counts agree with the
+    // quadrature within 4 binomial standard deviations.
+    let mut state: u64 = 20261202;
+    let mut uniform = || {
+        state = state.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = state;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut normal = || {
+        // Box-Muller.
+        let (a, b) = (uniform().max(1e-300), uniform());
+        (-2.0 * a.ln()).sqrt() * (2.0 * std::f64::consts::PI * b).cos()
+    };
+    let (lo, hi, al, ah) = (9.95, 10.05, 9.96, 10.04);
+    let n = 2_000_000;
+    let (mut consumer, mut producer) = (0u64, 0u64);
+    for _ in 0..n {
+        let eta = 10.0 + 0.02 * normal();
+        let y = eta + 0.005 * normal();
+        let conforms = (lo..=hi).contains(&eta);
+        let accepted = (al..=ah).contains(&y);
+        if accepted && !conforms {
+            consumer += 1;
+        }
+        if !accepted && conforms {
+            producer += 1;
+        }
+    }
+    let g = global_risks(
+        Process {
+            mean: 10.0,
+            standard_deviation: 0.02,
+        },
+        0.005,
+        Some(lo),
+        Some(hi),
+        Some([Some(al), Some(ah)]),
+    );
+    for (count, p) in [(consumer, g.consumer_risk), (producer, g.producer_risk)] {
+        let f = count as f64 / n as f64;
+        let sd = (p * (1.0 - p) / n as f64).sqrt();
+        assert!((f - p).abs() < 4.0 * sd, "{f} vs {p} (sd {sd})");
+    }
+}
