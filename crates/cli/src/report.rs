@@ -230,19 +230,8 @@ pub(crate) fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
     use incertus_gum::conformity::probability;
     let unit = unit_suffix(r);
     let name = &r.name;
-    let lim = |v: Option<f64>, low: bool| match v {
-        Some(v) => significant(v, 10),
-        None => if low { "−∞" } else { "+∞" }.to_string(),
-    };
-    let (_, e) = incertus_gum::rounding::round_to_digits(r.expanded_uncertainty, 2);
-    let at = |v: f64| {
-        if e < 0 && e > -16 {
-            let d = (-e) as usize;
-            format!("{v:.d$}")
-        } else {
-            significant(v, 6)
-        }
-    };
+    use incertus_gum::conformity::{at_place_of, limit_text as lim};
+    let at = |v: f64| at_place_of(v, r.expanded_uncertainty);
     let mut lines = vec![
         format!("conformity assessment of {name} (JCGM 106:2012)"),
         format!(
@@ -568,6 +557,14 @@ fn mc_footer(mc: &McReport) -> Vec<String> {
     lines
 }
 
+/// Append lines, each without trailing blanks.
+fn push_lines<S: AsRef<str>>(out: &mut String, lines: impl IntoIterator<Item = S>) {
+    for l in lines {
+        out.push_str(l.as_ref().trim_end());
+        out.push('\n');
+    }
+}
+
 /// The aligned text report.
 pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
     let mut out = String::new();
@@ -602,26 +599,17 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
             ));
         }
         out.push('\n');
-        for l in result_lines(r, report, style) {
-            out.push_str(l.trim_end());
-            out.push('\n');
-        }
+        push_lines(&mut out, result_lines(r, report, style));
         out.push('\n');
         if let Some(mc) = mc {
             if let Some(m) = mc.results.iter().find(|m| m.name == r.name) {
-                for l in mc_lines(r, m, mc, style) {
-                    out.push_str(l.trim_end());
-                    out.push('\n');
-                }
+                push_lines(&mut out, mc_lines(r, m, mc, style));
                 out.push('\n');
             }
         }
         let c = conformity_lines(r);
         if !c.is_empty() {
-            for l in c {
-                out.push_str(l.trim_end());
-                out.push('\n');
-            }
+            push_lines(&mut out, c);
             out.push('\n');
         }
     }
@@ -697,26 +685,17 @@ pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String 
             ));
         }
         out.push_str("\n```text\n");
-        for l in result_lines(r, report, style) {
-            out.push_str(l.trim_end());
-            out.push('\n');
-        }
+        push_lines(&mut out, result_lines(r, report, style));
         if let Some(mc) = mc {
             if let Some(m) = mc.results.iter().find(|m| m.name == r.name) {
                 out.push('\n');
-                for l in mc_lines(r, m, mc, style) {
-                    out.push_str(l.trim_end());
-                    out.push('\n');
-                }
+                push_lines(&mut out, mc_lines(r, m, mc, style));
             }
         }
         let c = conformity_lines(r);
         if let Some((statement, rest)) = c.split_last() {
             out.push('\n');
-            for l in rest {
-                out.push_str(l.trim_end());
-                out.push('\n');
-            }
+            push_lines(&mut out, rest);
             out.push_str("```\n\n");
             out.push_str(&format!(
                 "**Conformity statement.** {}\n\n",

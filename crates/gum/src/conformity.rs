@@ -94,15 +94,7 @@ pub struct Belief {
     pub dof: Option<f64>,
 }
 
-/// Standard normal distribution function, accurate in both tails (libm's
-/// erfc, a port of the musl/FreeBSD one, within an ulp or so; statrs'
-/// erfc is off by some 1e-11 relative near z = 2).
-pub fn normal_cdf(z: f64) -> f64 {
-    if z.is_nan() {
-        return f64::NAN;
-    }
-    0.5 * libm::erfc(-z / std::f64::consts::SQRT_2)
-}
+pub use crate::coverage::normal_cdf;
 
 fn std_cdf(z: f64, dof: Option<f64>) -> f64 {
     match dof {
@@ -166,31 +158,6 @@ impl Belief {
         } else {
             (1.0 - std_tail(zl, self.dof) - std_tail(zh, self.dof)).max(0.0)
         }
-    }
-
-    /// The quantile z of the standard distribution with Pr(Z ≤ z) = q, for
-    /// q in [1/2, 1), by bisection on the distribution function.
-    fn std_quantile_upper(&self, q: f64) -> f64 {
-        let tail = 1.0 - q;
-        let mut hi = 1.0;
-        let mut n = 0;
-        while std_tail(hi, self.dof) > tail && n < 1100 {
-            hi *= 2.0;
-            n += 1;
-        }
-        let mut lo = 0.0;
-        for _ in 0..200 {
-            let mid = 0.5 * (lo + hi);
-            if mid <= lo || mid >= hi {
-                break;
-            }
-            if std_tail(mid, self.dof) > tail {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-        }
-        0.5 * (lo + hi)
     }
 }
 
@@ -492,7 +459,10 @@ fn risk_guard_band(
         }
         _ => {
             // One limit: p_c at the acceptance limit is F(±w/u).
-            let z = belief.std_quantile_upper(1.0 - alpha);
+            let z = match belief.dof {
+                Some(nu) => crate::coverage::student_t_quantile(1.0 - alpha, nu),
+                None => crate::coverage::normal_quantile(1.0 - alpha),
+            };
             Some(z * u)
         }
     }
@@ -636,25 +606,35 @@ pub fn global_risks(
     }
 }
 
-fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> String {
-    let unit_text = unit.map(|u| format!(" {u}")).unwrap_or_default();
-    let (_, e) = crate::rounding::round_to_digits(big_u.max(belief.standard_uncertainty), 2);
-    let at = |v: f64| {
-        if e < 0 && e > -16 {
-            let d = (-e) as usize;
-            format!("{v:.d$}")
-        } else {
-            crate::rounding::significant(v, 6)
-        }
-    };
-    let limit = |v: Option<f64>, lower: bool| match v {
+/// A tolerance or acceptance limit for reports: ten significant digits,
+/// or −∞ / +∞ when absent.
+pub fn limit_text(v: Option<f64>, lower: bool) -> String {
+    match v {
         Some(v) => crate::rounding::significant(v, 10),
         None => if lower { "−∞" } else { "+∞" }.to_string(),
-    };
+    }
+}
+
+/// `v` written to the decimal place of `reference` rounded to two
+/// significant digits (JCGM 100:2008, 7.2.6), or to six significant digits
+/// where that place is not a plain decimal.
+pub fn at_place_of(v: f64, reference: f64) -> String {
+    let (_, e) = crate::rounding::round_to_digits(reference, 2);
+    if e < 0 && e > -16 {
+        let d = (-e) as usize;
+        format!("{v:.d$}")
+    } else {
+        crate::rounding::significant(v, 6)
+    }
+}
+
+fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> String {
+    let unit_text = unit.map(|u| format!(" {u}")).unwrap_or_default();
+    let at = |v: f64| at_place_of(v, big_u.max(belief.standard_uncertainty));
     let tolerance = format!(
         "[{}, {}]{unit_text}",
-        limit(c.lower_limit, true),
-        limit(c.upper_limit, false)
+        limit_text(c.lower_limit, true),
+        limit_text(c.upper_limit, false)
     );
     let acceptance = match c.acceptance_interval {
         None => "empty".to_string(),
