@@ -217,6 +217,12 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         style.digits,
         if style.digits == 1 { "" } else { "s" }
     ));
+    if wu.below_resolution || wbig.below_resolution {
+        lines.push(format!(
+            "         the uncertainty lies below the resolution of {} significant digits of the estimate and is shown rounded up to it",
+            incertus_gum::rounding::MAX_SIGNIFICANT
+        ));
+    }
     lines
 }
 
@@ -459,10 +465,7 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
     // Interval ends to one digit more than the standard uncertainty shows.
     let end = |v: f64| {
         let w = write(v, m.standard_uncertainty, style.digits + 1);
-        match w.exponent {
-            Some(x) => format!("{}e{x}", w.value),
-            None => w.value,
-        }
+        w.with_power(&w.value)
     };
     let w = write(m.value, m.standard_uncertainty, style.digits);
     let mut lines = vec![

@@ -3,9 +3,23 @@
 //! the estimate to the same decimal place, in concise notation `1.2345(67)`
 //! or as `1.2345 ± 0.0067`.
 //!
-//! Very large or small numbers (and uncertainties of 100 or more at two
-//! digits) are written with a common power of ten chosen as a multiple of
-//! three, `(1.6180 ± 0.0034)e-30`, so that the digits stay readable.
+//! Rounding works on the decimal digits of the shortest representation of
+//! each `f64` (what a person reads as the number), never on products with
+//! powers of ten, so subnormal and huge values round as exactly as small
+//! ones. The digits in parentheses are always the uncertainty in units of
+//! the last digit shown: when that digit would lie left of the units digit
+//! (500 ± 120), a power of ten is factored out, `0.50(12) × 10³`, as the SI
+//! Brochure (9th ed., 5.4) writes it. Very large or small numbers get a
+//! common power of ten chosen as a multiple of three, `(1.6180 ± 0.0034) ×
+//! 10⁻³⁰`.
+//!
+//! An estimate is never shown with more than [`MAX_SIGNIFICANT`] significant
+//! digits (what an `f64` holds, DBL_DIG); an uncertainty below that
+//! resolution is rounded up to it and [`Written::below_resolution`] says so.
+
+/// The most significant digits an estimate is shown with (an `f64` holds
+/// 15 decimal digits exactly, C's DBL_DIG).
+pub const MAX_SIGNIFICANT: i32 = 15;
 
 /// A result written for a report.
 #[derive(Clone, Debug, PartialEq)]
@@ -16,31 +30,211 @@ pub struct Written {
     pub uncertainty: String,
     /// The power of ten both are multiplied by, if any.
     pub exponent: Option<i32>,
-    /// `value(digits)`, e.g. `1.2345(67)` or `1.2345(67)e-30`.
+    /// `value(digits)`, e.g. `1.2345(67)` or `1.2345(67) × 10⁻³⁰`.
     pub concise: String,
-    /// `value ± uncertainty`, e.g. `1.2345 ± 0.0067` or `(1.2345 ± 0.0067)e-30`.
+    /// `value ± uncertainty`, e.g. `1.2345 ± 0.0067` or
+    /// `(1.2345 ± 0.0067) × 10⁻³⁰`.
     pub plus_minus: String,
+    /// The uncertainty lies below the resolution of the estimate's
+    /// [`MAX_SIGNIFICANT`] digits and was rounded up to it.
+    pub below_resolution: bool,
+}
+
+impl Written {
+    /// `text` followed by this result's power of ten, if any
+    /// (`0.50` → `0.50 × 10³`).
+    pub fn with_power(&self, text: &str) -> String {
+        match self.exponent {
+            Some(x) => format!("{text} × {}", power_of_ten(x)),
+            None => text.to_string(),
+        }
+    }
+}
+
+/// `10³`, `10⁻³⁰`: a power of ten as the SI Brochure prints it.
+pub fn power_of_ten(x: i32) -> String {
+    const SUP: [char; 10] = ['⁰', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹'];
+    let mut s = String::from("10");
+    if x < 0 {
+        s.push('⁻');
+    }
+    for c in x.unsigned_abs().to_string().chars() {
+        s.push(SUP[c.to_digit(10).expect("decimal digits") as usize]);
+    }
+    s
+}
+
+/// A finite decimal number: `sign · digits × 10^place`, `digits` without
+/// leading zeros (empty for zero).
+#[derive(Clone, Debug, PartialEq)]
+struct Decimal {
+    negative: bool,
+    digits: Vec<u8>,
+    /// The power of ten of the last digit.
+    place: i32,
+}
+
+impl Decimal {
+    /// The shortest decimal form of a finite `f64` (the one Rust prints,
+    /// which reads back to the same `f64`).
+    fn of(x: f64) -> Decimal {
+        let text = format!("{:e}", x.abs());
+        let (mantissa, exponent) = text.split_once('e').expect("`{:e}` writes an exponent");
+        let exponent: i32 = exponent.parse().expect("`{:e}` writes an integer exponent");
+        let digits: Vec<u8> = mantissa
+            .bytes()
+            .filter(u8::is_ascii_digit)
+            .map(|b| b - b'0')
+            .collect();
+        let mut d = Decimal {
+            negative: x.is_sign_negative(),
+            place: exponent - (digits.len() as i32 - 1),
+            digits,
+        };
+        d.normalize();
+        d
+    }
+
+    fn normalize(&mut self) {
+        let lead = self.digits.iter().take_while(|&&d| d == 0).count();
+        self.digits.drain(..lead);
+        if self.digits.is_empty() {
+            self.negative = false;
+        }
+    }
+
+    fn is_zero(&self) -> bool {
+        self.digits.is_empty()
+    }
+
+    /// Power of ten of the leading digit (`None` for zero).
+    fn leading(&self) -> Option<i32> {
+        (!self.is_zero()).then(|| self.place + self.digits.len() as i32 - 1)
+    }
+
+    /// Rounded to the decimal place `place` (half away from zero on the
+    /// shortest decimal form), or up (away from zero) when `up`.
+    fn round_at(&self, place: i32, up: bool) -> Decimal {
+        if place <= self.place {
+            let mut d = self.clone();
+            if !d.is_zero() {
+                d.digits
+                    .extend(std::iter::repeat_n(0, (self.place - place) as usize));
+            }
+            d.place = place;
+            return d;
+        }
+        let drop = (place - self.place) as usize;
+        let keep = self.digits.len().saturating_sub(drop);
+        let dropped = &self.digits[keep..];
+        // The first dropped digit, when all of them lie right of `place`.
+        let first_dropped = if drop > self.digits.len() {
+            0
+        } else {
+            dropped.first().copied().unwrap_or(0)
+        };
+        let round_up = if up {
+            dropped.iter().any(|&d| d != 0)
+        } else {
+            first_dropped >= 5
+        };
+        let mut digits: Vec<u8> = self.digits[..keep].to_vec();
+        if round_up {
+            let mut i = digits.len();
+            loop {
+                if i == 0 {
+                    digits.insert(0, 1);
+                    break;
+                }
+                i -= 1;
+                if digits[i] == 9 {
+                    digits[i] = 0;
+                } else {
+                    digits[i] += 1;
+                    break;
+                }
+            }
+        }
+        let mut d = Decimal {
+            negative: self.negative,
+            digits,
+            place,
+        };
+        d.normalize();
+        d
+    }
+
+    /// The digits as an integer text (`"0"` for zero), without sign.
+    fn integer_text(&self) -> String {
+        if self.is_zero() {
+            "0".into()
+        } else {
+            self.digits.iter().map(|d| char::from(b'0' + d)).collect()
+        }
+    }
+
+    /// Written as a plain decimal after dividing by `10^shift`, with
+    /// exactly `shift − place` decimals (none when that is negative: then
+    /// zeros are appended).
+    fn text(&self, shift: i32) -> String {
+        let p = self.place - shift;
+        let mut s = self.integer_text();
+        if p >= 0 {
+            if !self.is_zero() {
+                s.push_str(&"0".repeat(p as usize));
+            }
+        } else {
+            let decimals = (-p) as usize;
+            if s.len() <= decimals {
+                s = format!("{}{s}", "0".repeat(decimals + 1 - s.len()));
+            }
+            s.insert(s.len() - decimals, '.');
+        }
+        if self.negative {
+            s.insert(0, '-');
+        }
+        s
+    }
+
+    fn to_f64(&self) -> f64 {
+        let t = format!(
+            "{}{}e{}",
+            if self.negative { "-" } else { "" },
+            self.integer_text(),
+            self.place
+        );
+        t.parse().expect("a decimal text parses as f64")
+    }
 }
 
 /// Decimal exponent of the last digit kept when `u` is rounded to `digits`
 /// significant digits, and the rounded value.
+///
+/// ```
+/// use incertus_gum::rounding::round_to_digits;
+/// assert_eq!(round_to_digits(0.0346, 2), (0.035, -3));
+/// assert_eq!(round_to_digits(9.96, 2), (10.0, 0)); // 10, not 10.0
+/// ```
 pub fn round_to_digits(u: f64, digits: u32) -> (f64, i32) {
-    let digits = digits.clamp(1, 6) as i32;
     if u == 0.0 || !u.is_finite() {
         return (u, 0);
     }
-    let mut e = u.abs().log10().floor() as i32 - (digits - 1);
-    let mut r = (u / pow10(e)).round();
-    if r >= 10f64.powi(digits) {
-        // 9.96 to two digits is 10, not 10.0.
-        e += 1;
-        r = (u / pow10(e)).round();
-    }
-    (r * pow10(e), e)
+    let (r, place) = round_decimal(u, digits);
+    (r.to_f64(), place)
 }
 
-fn pow10(e: i32) -> f64 {
-    10f64.powi(e)
+fn round_decimal(u: f64, digits: u32) -> (Decimal, i32) {
+    let digits = digits.clamp(1, 6) as i32;
+    let d = Decimal::of(u);
+    let lead = d.leading().expect("non-zero");
+    let mut place = lead - (digits - 1);
+    let mut r = d.round_at(place, false);
+    if r.leading() != Some(lead) {
+        // 9.96 to two digits is 10, not 10.0.
+        place += 1;
+        r = r.round_at(place, false);
+    }
+    (r, place)
 }
 
 /// Write `value` with uncertainty `u` rounded to `digits` significant digits.
@@ -51,38 +245,73 @@ fn pow10(e: i32) -> f64 {
 /// assert_eq!(w.concise, "10.000025(29)");
 /// assert_eq!(w.plus_minus, "10.000025 ± 0.000029");
 /// let w = write(1.618_03e-30, 3.4e-33, 2);
-/// assert_eq!(w.plus_minus, "(1.6180 ± 0.0034)e-30");
+/// assert_eq!(w.plus_minus, "(1.6180 ± 0.0034) × 10⁻³⁰");
+/// // The last digit of u lies left of the units digit: a power of ten.
+/// assert_eq!(write(500.0, 120.0, 2).concise, "0.50(12) × 10³");
 /// ```
 pub fn write(value: f64, u: f64, digits: u32) -> Written {
-    if u == 0.0 || !u.is_finite() {
-        let v = format!("{}", value);
+    if !value.is_finite() || u == 0.0 || !u.is_finite() {
+        let v = significant(value, MAX_SIGNIFICANT as usize);
+        let u_text = if u == 0.0 {
+            "0".to_string()
+        } else {
+            format!("{u}")
+        };
         return Written {
             value: v.clone(),
-            uncertainty: "0".into(),
+            uncertainty: u_text.clone(),
             exponent: None,
             concise: v.clone(),
-            plus_minus: format!("{v} ± 0"),
+            plus_minus: format!("{v} ± {u_text}"),
+            below_resolution: false,
         };
     }
-    let (_, e) = round_to_digits(u, digits);
-    let big = value.abs().max(u.abs());
-    let mag = big.log10().floor() as i32;
-    let exponent = if e > 0 || !(-4..6).contains(&mag) {
-        Some(3 * mag.div_euclid(3))
+    let (mut ur, mut place) = round_decimal(u.abs(), digits);
+    let y = Decimal::of(value);
+    let mut below_resolution = false;
+    if let Some(lead) = y.leading() {
+        let finest = lead - (MAX_SIGNIFICANT - 1);
+        if place < finest {
+            // u below the estimate's resolution: round it up to that place.
+            place = finest;
+            ur = Decimal::of(u.abs()).round_at(place, true);
+            below_resolution = true;
+        }
+    }
+    let mut yr = y.round_at(place, false);
+    if let (Some(before), Some(after)) = (y.leading(), yr.leading()) {
+        if after > before && after - place + 1 > MAX_SIGNIFICANT {
+            // 999…9.5 rounded up gained a digit beyond the resolution.
+            place += 1;
+            ur = Decimal::of(u.abs()).round_at(place, true);
+            yr = y.round_at(place, false);
+            below_resolution = true;
+        }
+    }
+    let big = match yr.leading() {
+        Some(q) => q.max(ur.leading().expect("u is not zero")),
+        None => ur.leading().expect("u is not zero"),
+    };
+    let exponent = if place > 0 || !(-4..6).contains(&big) {
+        let mut shift = 3 * big.div_euclid(3);
+        if shift < place {
+            shift = 3 * (place + 2).div_euclid(3);
+        }
+        Some(shift)
     } else {
         None
     };
     let shift = exponent.unwrap_or(0);
-    let (us, es) = round_to_digits(u / pow10(shift), digits);
-    let decimals = (-es).max(0) as usize;
-    let vs = ((value / pow10(shift)) / pow10(es)).round() * pow10(es);
-    let value_text = format!("{vs:.decimals$}");
-    let u_text = format!("{us:.decimals$}");
-    let digits_text = format!("{}", (us / pow10(es)).round() as i64);
-    let suffix = exponent.map(|x| format!("e{x}")).unwrap_or_default();
-    let concise = format!("{value_text}({digits_text}){suffix}");
-    let plus_minus = match exponent {
-        Some(x) => format!("({value_text} ± {u_text})e{x}"),
+    let value_text = yr.text(shift);
+    let u_text = ur.text(shift);
+    let digits_text = ur.integer_text();
+    let power = exponent.map(|x| format!(" × {}", power_of_ten(x)));
+    let concise = format!(
+        "{value_text}({digits_text}){}",
+        power.as_deref().unwrap_or("")
+    );
+    let plus_minus = match &power {
+        Some(p) => format!("({value_text} ± {u_text}){p}"),
         None => format!("{value_text} ± {u_text}"),
     };
     Written {
@@ -91,6 +320,7 @@ pub fn write(value: f64, u: f64, digits: u32) -> Written {
         exponent,
         concise,
         plus_minus,
+        below_resolution,
     }
 }
 
@@ -103,18 +333,18 @@ pub fn significant(v: f64, sig: usize) -> String {
     if !v.is_finite() {
         return format!("{v}");
     }
-    let mag = v.abs().log10().floor() as i32;
+    let sig = sig.clamp(1, 17);
+    // Round first, so that the magnitude is that of the rounded number.
+    let s = format!("{:.*e}", sig - 1, v);
+    let (m, x) = s.split_once('e').expect("`{:e}` writes an exponent");
+    let mag: i32 = x.parse().expect("an integer exponent");
     if (-4..7).contains(&mag) {
         let decimals = (sig as i32 - 1 - mag).max(0) as usize;
         let s = format!("{v:.decimals$}");
         trim_zeros(&s)
     } else {
-        let s = format!("{:.*e}", sig.saturating_sub(1), v);
         // 1.2300e-5 -> 1.23e-5
-        match s.split_once('e') {
-            Some((m, x)) => format!("{}e{}", trim_zeros(m), x),
-            None => s,
-        }
+        format!("{}e{}", trim_zeros(m), x)
     }
 }
 
@@ -123,5 +353,23 @@ fn trim_zeros(s: &str) -> String {
         s.trim_end_matches('0').trim_end_matches('.').to_string()
     } else {
         s.to_string()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn decimal_rounding() {
+        // common practice, no published source: half away from zero
+        assert_eq!(Decimal::of(0.0346).round_at(-3, false).text(0), "0.035");
+        assert_eq!(Decimal::of(-0.0004).round_at(-3, false).text(0), "0.000");
+        assert_eq!(Decimal::of(999.9).round_at(0, false).text(0), "1000");
+        assert_eq!(Decimal::of(0.7).round_at(0, false).text(0), "1");
+        assert_eq!(Decimal::of(0.3).round_at(0, false).text(0), "0");
+        assert_eq!(Decimal::of(0.03).round_at(0, false).text(0), "0");
+        assert_eq!(Decimal::of(5e-324).leading(), Some(-324));
+        assert_eq!(Decimal::of(1.01).round_at(-1, true).text(0), "1.1");
     }
 }

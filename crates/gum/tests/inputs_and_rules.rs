@@ -160,13 +160,13 @@ fn rounding_rules() {
     assert_eq!(write(12.3456, 0.0346, 1).concise, "12.35(3)");
     assert_eq!(
         write(2830628.8, 1372.6, 2).plus_minus,
-        "(2.8306 ± 0.0014)e6"
+        "(2.8306 ± 0.0014) × 10⁶"
     );
     assert_eq!(
         write(-0.004_567, 0.000_12, 2).plus_minus,
         "-0.00457 ± 0.00012"
     );
-    assert_eq!(write(-4.567e-7, 1.2e-8, 2).plus_minus, "(-457 ± 12)e-9");
+    assert_eq!(write(-4.567e-7, 1.2e-8, 2).plus_minus, "(-457 ± 12) × 10⁻⁹");
     // The rounding a stated figure implies.
     let st = |t: &str| Stated {
         value: t.parse().unwrap(),
