@@ -110,10 +110,8 @@ pub(crate) fn evaluate(
     second_order: bool,
 ) -> Result<Report, Failure> {
     if let Some(p) = coverage {
-        if !(p > 0.0 && p < 1.0) {
-            return Err(Failure::input(format!(
-                "--coverage must lie strictly between 0 and 1, found {p}"
-            )));
+        if let Err(m) = incertus_gum::coverage::check_coverage_probability(p) {
+            return Err(Failure::input(format!("--coverage {m}")));
         }
     }
     propagate(

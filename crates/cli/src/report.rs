@@ -191,8 +191,12 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
     }
     lines.push(format!("effective degrees of freedom      {dof}"));
     lines.push(format!(
-        "coverage factor                   k = {} for p = {p} (Student's t)",
-        significant(r.coverage_factor, 4)
+        "coverage factor                   k = {} for p = {p} ({})",
+        significant(r.coverage_factor, 4),
+        match r.effective_dof_used {
+            None => "normal distribution, ν_eff infinite".to_string(),
+            Some(v) => format!("Student's t with {} dof", significant(v, 4)),
+        }
     ));
     lines.push(format!(
         "expanded uncertainty              U({name}) = {}{unit}",
@@ -207,9 +211,14 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         "         {name} = {}{unit}   (± gives the expanded uncertainty U: k = {}, p = {p}, {})",
         wbig.plus_minus,
         significant(r.coverage_factor, 3),
-        match r.effective_dof_used {
-            None => "ν_eff infinite".to_string(),
-            Some(v) => format!("ν_eff = {}", significant(v, 4)),
+        match (r.effective_dof, r.effective_dof_used) {
+            (_, None) => "ν_eff infinite, normal distribution".to_string(),
+            (Some(v), Some(used)) if v != used => format!(
+                "ν_eff = {}, {} used",
+                significant(v, 4),
+                significant(used, 4)
+            ),
+            (_, Some(used)) => format!("ν_eff = {}", significant(used, 4)),
         }
     ));
     lines.push(format!(

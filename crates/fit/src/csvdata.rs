@@ -67,10 +67,17 @@ pub fn columns_from_reader(
         match headers.iter().position(|h| h == *n) {
             Some(i) => idx.push(i),
             None => {
+                let other = headers.iter().any(|h| h.contains([';', '\t']));
                 return Err(DataError(format!(
-                    "{file}:1: no column named `{n}`; the columns are: {}",
-                    headers.iter().collect::<Vec<_>>().join(", ")
-                )))
+                    "{file}:1: no column named `{n}`; the columns are: {}{}",
+                    headers.iter().collect::<Vec<_>>().join(", "),
+                    if other {
+                        " (the header seems to use `;` or a tab between fields; incertus reads \
+                         fields separated by commas, with decimal points)"
+                    } else {
+                        ""
+                    }
+                )));
             }
         }
     }
@@ -87,6 +94,16 @@ pub fn columns_from_reader(
             DataError(format!("{file}:{line}: cannot read the line: {e}"))
         })?;
         let line = rec.position().map_or(k as u64 + 2, |p| p.line());
+        if rec.len() != headers.len() {
+            return Err(DataError(format!(
+                "{file}:{line}: the line has {} field{} but the header has {}; decimal commas \
+                 (`0,5` for 0.5) or a separator other than the comma are the likely cause: export \
+                 the data with decimal points and commas between fields",
+                rec.len(),
+                if rec.len() == 1 { "" } else { "s" },
+                headers.len()
+            )));
+        }
         for (c, &i) in idx.iter().enumerate() {
             let cell = rec.get(i).ok_or_else(|| {
                 DataError(format!(

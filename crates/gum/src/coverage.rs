@@ -37,6 +37,35 @@ pub fn dof_used(nu_eff: Dof, rounding: DofRounding) -> Dof {
     })
 }
 
+/// The largest coverage probability accepted: 1 − 10⁻¹². Beyond it the
+/// tail probability (1 − p)/2 is no longer resolved by an `f64` near 1
+/// (0.9999999999999999 leaves 5.6e-17, and k is not finite for small dof);
+/// common practice, no published source, asks for no more than 0.9999.
+pub const MAX_COVERAGE_PROBABILITY: f64 = 1.0 - 1e-12;
+
+/// Whether `p` is a coverage probability a coverage factor can be computed
+/// for: 0 < p ≤ [`MAX_COVERAGE_PROBABILITY`]. The message names the range.
+///
+/// ```
+/// use incertus_gum::coverage::check_coverage_probability;
+/// assert!(check_coverage_probability(0.95).is_ok());
+/// assert!(check_coverage_probability(0.9999999999999999).is_err());
+/// ```
+pub fn check_coverage_probability(p: f64) -> Result<(), String> {
+    if p > 0.0 && p <= MAX_COVERAGE_PROBABILITY {
+        Ok(())
+    } else if p > 0.0 && p < 1.0 {
+        Err(format!(
+            "is too close to 1 for a finite coverage factor: a coverage probability must lie \
+             between 0 and 1 − 10⁻¹² (0.999999999999), found {p}"
+        ))
+    } else {
+        Err(format!(
+            "must lie strictly between 0 and 1, found {p} (the largest accepted is 0.999999999999)"
+        ))
+    }
+}
+
 /// Coverage factor k_p = t_p(ν) for coverage probability p: the
 /// (1 + p)/2 quantile of Student's t with ν dof, or of the standard normal
 /// for infinite dof (JCGM 100:2008, G.3.2 and G.3.4).

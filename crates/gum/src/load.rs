@@ -591,11 +591,11 @@ impl Loader<'_> {
         let _ = top.string("description")?;
         let coverage_probability = match top.number("coverage_probability")? {
             Some(n) => {
-                if !(n.value > 0.0 && n.value < 1.0) {
+                if let Err(m) = crate::coverage::check_coverage_probability(n.value) {
                     return Err(top.err(
                         n.span,
                         "coverage_probability",
-                        format!("must lie strictly between 0 and 1, found {}", n.text),
+                        m.replace(&format!("found {}", n.value), &format!("found {}", n.text)),
                     ));
                 }
                 n.value

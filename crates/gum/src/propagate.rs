@@ -239,11 +239,8 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     let p = opts
         .coverage_probability
         .unwrap_or(model.coverage_probability);
-    if !(p > 0.0 && p < 1.0) {
-        return Err(perr(
-            format!("the coverage probability must lie strictly between 0 and 1, not {p}"),
-            None,
-        ));
+    if let Err(m) = crate::coverage::check_coverage_probability(p) {
+        return Err(perr(format!("the coverage probability {m}"), None));
     }
     let n = model.inputs.len();
     let u: Vec<f64> = model
@@ -384,6 +381,18 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             ));
         }
         let k = coverage_factor(p, nu_used);
+        if !k.is_finite() {
+            return Err(perr(
+                format!(
+                    "`{}`: no finite coverage factor exists for p = {p} with {} degrees of freedom; \
+                     choose a smaller coverage probability",
+                    m.name,
+                    nu_used.map_or("infinite".to_string(), |v| v.to_string())
+                ),
+                None,
+            )
+            .at(m.line));
+        }
 
         // Second-order terms (JCGM 100:2008, 5.1.2 note, eq. 10 extended).
         let second = if opts.second_order {
