@@ -146,7 +146,11 @@ fn bad_data_and_fit_keys_are_clear_errors() {
             "",
             "d.csv:3: column `y` holds `abc`, which is not a number",
         ),
-        ("x,y\n1,2\n2\n3,4\n", "", "d.csv:3: the line has 1 field but the header has 2"),
+        (
+            "x,y\n1,2\n2\n3,4\n",
+            "",
+            "d.csv:3: the line has 1 field but the header has 2",
+        ),
         (
             "x,z\n1,2\n2,3\n3,4\n",
             "",

@@ -226,6 +226,9 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         style.digits,
         if style.digits == 1 { "" } else { "s" }
     ));
+    for w in &r.warnings {
+        lines.push(format!("WARNING  {w}"));
+    }
     if wu.below_resolution || wbig.below_resolution {
         lines.push(format!(
             "         the uncertainty lies below the resolution of {} significant digits of the estimate and is shown rounded up to it",

@@ -327,11 +327,13 @@ impl Shell {
     }
 
     fn result_line(&self, report: &Report, name: &str) -> Option<String> {
-        report
-            .results
-            .iter()
-            .find(|r| r.name == name)
-            .map(|r| show(&r.name, r.value, r.standard_uncertainty, r.unit.as_deref()))
+        report.results.iter().find(|r| r.name == name).map(|r| {
+            let mut s = show(&r.name, r.value, r.standard_uncertainty, r.unit.as_deref());
+            for w in &r.warnings {
+                s.push_str(&format!("\n  WARNING  {w}"));
+            }
+            s
+        })
     }
 
     /// Run one line; `false` to end the session.
@@ -381,7 +383,10 @@ impl Shell {
                     .iter()
                     .find(|r| r.name == "_")
                     .expect("added above");
-                let s = show("", r.value, r.standard_uncertainty, None);
+                let mut s = show("", r.value, r.standard_uncertainty, r.unit.as_deref());
+                for w in &r.warnings {
+                    s.push_str(&format!("\n  WARNING  {w}"));
+                }
                 self.say(s.trim_start_matches(" = ").to_string());
             }
             Err(e) => self.say(format!("error: {e}")),

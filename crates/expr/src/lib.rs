@@ -25,6 +25,7 @@ pub mod func;
 mod parse;
 mod print;
 mod simplify;
+pub mod smooth;
 mod tape;
 
 pub use ast::{Expr, Factor, Kind, Span, Term};
@@ -35,4 +36,5 @@ pub use func::Func;
 pub use parse::{parse, parse_with, Limits};
 pub use print::{format_number, print, print_tree};
 pub use simplify::{negate, simplify};
+pub use smooth::{non_smooth_points, NonSmooth};
 pub use tape::{BatchReport, ShapeError, Tape, LANES};

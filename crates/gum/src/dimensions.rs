@@ -141,3 +141,45 @@ fn power(
         )
     })
 }
+
+/// The coherent SI unit of a dimension in base units, the factors with
+/// positive exponents first (`kg m^-3`, `m s^-2`, `kg m^2 s^-2`), as a
+/// text the unit parser reads back.
+///
+/// ```
+/// use incertus_units::Dimension;
+/// use incertus_gum::dimensions::coherent_si_unit;
+/// // m, kg, s, A, K, mol, cd
+/// assert_eq!(coherent_si_unit(Dimension([-3, 1, 0, 0, 0, 0, 0])), "kg m^-3");
+/// assert_eq!(coherent_si_unit(Dimension([1, 0, 0, 0, 0, 0, 0])), "m");
+/// ```
+pub fn coherent_si_unit(d: incertus_units::Dimension) -> String {
+    if d.is_one() {
+        return "1".into();
+    }
+    // Order of writing: kg, m, s, A, K, mol, cd (index into the m-first array).
+    const ORDER: [(usize, &str); 7] = [
+        (1, "kg"),
+        (0, "m"),
+        (2, "s"),
+        (3, "A"),
+        (4, "K"),
+        (5, "mol"),
+        (6, "cd"),
+    ];
+    let part = |i: usize, s: &str| {
+        let e = d.0[i];
+        if e == 1 {
+            s.to_string()
+        } else {
+            format!("{s}^{e}")
+        }
+    };
+    let positive = ORDER.iter().filter(|(i, _)| d.0[*i] > 0);
+    let negative = ORDER.iter().filter(|(i, _)| d.0[*i] < 0);
+    positive
+        .chain(negative)
+        .map(|&(i, s)| part(i, s))
+        .collect::<Vec<_>>()
+        .join(" ")
+}

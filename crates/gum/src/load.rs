@@ -955,12 +955,12 @@ impl Loader<'_> {
             let _ = fspan;
         }
         self.check_formula_names(&inputs, &measurands, items)?;
-        let measurands = order_measurands(doc, measurands, items)?;
+        let mut measurands = order_measurands(doc, measurands, items)?;
         self.check_expanded_size(&measurands, items)?;
         let units = inputs.iter().any(|i| i.unit_si.is_some())
             || measurands.iter().any(|m| m.unit_si.is_some());
         if units {
-            self.check_dimensions(&inputs, &measurands, items)?;
+            self.check_dimensions(&inputs, &mut measurands, items)?;
         }
 
         for p in pending {
@@ -1417,7 +1417,7 @@ impl Loader<'_> {
     fn check_dimensions(
         &self,
         inputs: &[Input],
-        measurands: &[Measurand],
+        measurands: &mut [Measurand],
         items: &DeArray,
     ) -> Result<()> {
         use incertus_units::Dimension;
@@ -1430,7 +1430,7 @@ impl Loader<'_> {
                 )
             })
             .collect();
-        for m in measurands {
+        for m in measurands.iter_mut() {
             let index = items
                 .iter()
                 .position(|it| {
@@ -1476,6 +1476,18 @@ impl Loader<'_> {
                         ),
                     ));
                 }
+            }
+            if m.unit_si.is_none() && !d.is_one() {
+                // No unit stated: the result is reported in its coherent SI
+                // unit (SI Brochure, 9th ed., 2.3.4), named so everywhere.
+                let text = crate::dimensions::coherent_si_unit(d);
+                m.unit = Some(text.clone());
+                m.unit_si = Some(incertus_units::Unit {
+                    text,
+                    dimension: d,
+                    factor: 1.0,
+                    offset: 0.0,
+                });
             }
             known.push((m.name.clone(), d));
         }

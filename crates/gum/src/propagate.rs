@@ -143,6 +143,10 @@ pub struct MeasurandResult {
     /// Conformity assessment (JCGM 106:2012) when the measurand has a
     /// specification.
     pub conformity: Option<crate::conformity::Conformity>,
+    /// Reasons why the first-order result may be wrong (a point where the
+    /// formula has no derivative, first-order terms that all vanish); every
+    /// writer shows them beside the result.
+    pub warnings: Vec<String>,
 }
 
 /// A square matrix with names.
@@ -282,8 +286,20 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     for (mi, m) in model.measurands.iter().enumerate() {
         let f = &expanded[mi].1;
         let y = values[mi];
+        let mut warnings: Vec<String> = incertus_expr::non_smooth_points(f, input_env.as_slice())
+            .into_iter()
+            .map(|p| {
+                format!(
+                    "`{}` in the formula of `{}`: {}. The law of propagation needs a derivative \
+                     (JCGM 100:2008, 5.1.2), so the first-order result does not hold here; use \
+                     propagation of distributions (--mc, JCGM 101:2008)",
+                    p.text, m.name, p.what
+                )
+            })
+            .collect();
         let mut c = vec![0.0; n];
         let mut formulas = vec![String::new(); n];
+        let mut flat_everywhere = vec![false; n];
         let mut used = Vec::new();
         for i in 0..n {
             let name = &model.inputs[i].name;
@@ -296,14 +312,22 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 perr(
                     format!(
                         "the sensitivity coefficient of `{name}` in `{}` is not defined at the input \
-                         estimates: {}",
-                        m.name, e.message
+                         estimates: {}{}",
+                        m.name,
+                        e.message,
+                        warnings
+                            .first()
+                            .map(|w| format!("\n{w}"))
+                            .unwrap_or_default()
                     ),
                     Some(format!("∂{}/∂{name} = {}", m.name, print(&d))),
                 )
                 .at(m.line)
             })?;
             c[i] = ci;
+            // A derivative that simplifies to 0 is zero everywhere (`q - x*y`
+            // with q = x*y): the input does not really enter the result.
+            flat_everywhere[i] = matches!(simplify(&d).kind, Kind::Num(v) if v == 0.0);
             formulas[i] = print(&d);
             used.push(i);
         }
@@ -427,6 +451,26 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             ));
         }
         let u_for_expanded = second.unwrap_or(uc);
+        let uncertain: Vec<&str> = used
+            .iter()
+            .filter(|&&i| u[i] > 0.0 && !flat_everywhere[i])
+            .map(|&i| model.inputs[i].name.as_str())
+            .collect();
+        if u_for_expanded == 0.0 && !uncertain.is_empty() {
+            warnings.push(format!(
+                "the first-order standard uncertainty of `{}` is 0 although uncertain inputs enter \
+                 its formula ({}): every sensitivity coefficient vanishes at the estimates, so the \
+                 result is flat to first order there, not certain (JCGM 100:2008, 5.1.2, note). {}",
+                m.name,
+                uncertain.join(", "),
+                if opts.second_order {
+                    "The higher-order terms vanish too; use propagation of distributions (--mc)"
+                } else {
+                    "Include the higher-order terms (--second-order) or use propagation of \
+                     distributions (--mc)"
+                }
+            ));
+        }
 
         let f_out = m.unit_factor();
         let y_shown = m.shown_value(y);
@@ -488,6 +532,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             correlation_budget,
             monte_carlo: None,
             conformity: None,
+            warnings,
         });
         if let Some(spec) = &m.specification {
             let r = results.last_mut().expect("just pushed");
@@ -507,6 +552,19 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 )
                 .map_err(|e| perr(format!("measurand `{}`: {e}", m.name), None).at(m.line))?,
             );
+            if !r.warnings.is_empty() {
+                let c = r.conformity.as_mut().expect("just assessed");
+                c.statement = format!(
+                    "NOT VALID WITHOUT REVIEW: the first-order result of `{}` this decision rests on \
+                     is not reliable here ({} warning{} with the result; check it by propagation of \
+                     distributions). {}",
+                    r.name,
+                    r.warnings.len(),
+                    if r.warnings.len() == 1 { "" } else { "s" },
+                    c.statement
+                );
+                c.notes.extend(r.warnings.iter().cloned());
+            }
         }
         sens_rows.push(c);
     }
@@ -630,11 +688,12 @@ fn second_order(
         .iter()
         .map(|w| checked_derivative(&f, w, max_nodes, name))
         .collect::<Result<_, _>>()?;
-    if uc == 0.0 {
-        return Ok(0.0);
-    }
-    // Each term divided by u_c², so that nothing under- or overflows.
-    let mut extra_rel = 0.0;
+    // The terms in the unit of y: b = f_i u_i, a = f_ij u_i u_j,
+    // c = f_ijj u_i u_j². They are scaled by the largest of them and u_c
+    // before squaring, so that nothing under- or overflows; the higher-order
+    // terms count also when every first-order coefficient is zero
+    // (u_c = 0, the product of two zero estimates).
+    let mut terms: Vec<(f64, f64, f64)> = Vec::new();
     for (a, &i) in used.iter().enumerate() {
         if u[i] == 0.0 {
             continue;
@@ -650,18 +709,32 @@ fn second_order(
                 &checked_derivative(&fij_e, names[b], max_nodes, name)?,
                 "third derivative",
             )?;
-            let r1 = fi * u[i] / uc;
-            let r2 = fij * u[i] * u[j] / uc;
-            let r3 = fijj * u[i] * u[j] * u[j] / uc;
-            extra_rel += 0.5 * r2 * r2 + r1 * r3;
+            terms.push((fi * u[i], fij * u[i] * u[j], fijj * u[i] * u[j] * u[j]));
         }
     }
-    let total = 1.0 + extra_rel;
+    let scale = terms
+        .iter()
+        .flat_map(|&(b, a, c)| [b.abs(), a.abs(), c.abs()])
+        .fold(uc, f64::max);
+    if scale == 0.0 {
+        return Ok(0.0);
+    }
+    if !scale.is_finite() {
+        return Err(perr(
+            format!("`{name}`: the higher-order terms are not finite at the input estimates"),
+            None,
+        ));
+    }
+    let mut total = (uc / scale) * (uc / scale);
+    for &(b, a, c) in &terms {
+        let (b, a, c) = (b / scale, a / scale, c / scale);
+        total += 0.5 * a * a + b * c;
+    }
     if total < 0.0 {
         return Err(perr(
             format!("`{name}`: the higher-order terms make the variance negative; the model is too far from linear for this approximation"),
             None,
         ));
     }
-    Ok(uc * total.sqrt())
+    Ok(scale * total.sqrt())
 }

@@ -1,0 +1,133 @@
+//! Points where a formula has no derivative: the places of the built-in
+//! functions where the law of propagation of uncertainty (JCGM 100:2008,
+//! 5.1.2), which needs the first-order Taylor series, does not hold.
+//!
+//! At such a point the symbolic derivative still evaluates to a number
+//! (`d abs(x)/dx = sign(x)` gives 0 at x = 0), so the first-order result
+//! looks normal while it is wrong; the caller turns every finding into a
+//! warning that names the function and points to propagation of
+//! distributions (JCGM 101:2008), which needs no derivative.
+//!
+//! The points found: `abs` and `sign` at 0 (a kink, a jump), `hypot` at
+//! (0, 0) (a cone), `atan2(y, x)` on its branch cut (y = 0, x < 0, a jump),
+//! `sqrt` and `cbrt` at 0, `asin` and `acos` at ±1, `acosh` at 1, and a
+//! power with base 0 and a non-integer exponent (an infinite slope or the
+//! edge of the domain). Points of `Expr::eval`'s domain errors are left to
+//! those errors.
+
+use crate::ast::{Expr, Kind};
+use crate::eval::Env;
+use crate::func::Func;
+use crate::print::print;
+use crate::Span;
+
+/// One place where a formula is not differentiable at the given point.
+#[derive(Clone, Debug, PartialEq)]
+pub struct NonSmooth {
+    /// The function, as written (`abs`, `^` for a power).
+    pub function: String,
+    /// The call or power, printed.
+    pub text: String,
+    /// Where it is in the formula's text.
+    pub span: Span,
+    /// What happens there, in words.
+    pub what: String,
+}
+
+/// Every call of a built-in function (and every power) in `e` whose
+/// arguments, evaluated at `env`, lie on a point where the function has no
+/// derivative. Sub-formulas that cannot be evaluated are skipped (their
+/// error shows elsewhere).
+///
+/// ```
+/// use incertus_expr::{parse, non_smooth_points};
+/// let f = parse("abs(a - b) + c").unwrap();
+/// let found = non_smooth_points(&f, &[("a", 2.0), ("b", 2.0), ("c", 1.0)]);
+/// assert_eq!(found[0].function, "abs");
+/// assert!(non_smooth_points(&f, &[("a", 2.0), ("b", 1.0), ("c", 1.0)]).is_empty());
+/// ```
+pub fn non_smooth_points<E: Env<f64> + ?Sized>(e: &Expr, env: &E) -> Vec<NonSmooth> {
+    let mut out = Vec::new();
+    walk(e, env, &mut out);
+    out
+}
+
+fn walk<E: Env<f64> + ?Sized>(e: &Expr, env: &E, out: &mut Vec<NonSmooth>) {
+    let value = |x: &Expr| x.eval::<f64, E>(env).ok();
+    let mut found = |function: &str, what: String| {
+        out.push(NonSmooth {
+            function: function.to_string(),
+            text: print(e),
+            span: e.span,
+            what,
+        })
+    };
+    match &e.kind {
+        Kind::Call(f, args) => {
+            let a: Vec<Option<f64>> = args.iter().map(value).collect();
+            match (f, a.as_slice()) {
+                (Func::Abs, [Some(x)]) if *x == 0.0 => found(
+                    "abs",
+                    "its argument is 0, where abs has a kink and no derivative".into(),
+                ),
+                (Func::Sign, [Some(x)]) if *x == 0.0 => found(
+                    "sign",
+                    "its argument is 0, where sign jumps from −1 to 1".into(),
+                ),
+                (Func::Hypot, [Some(x), Some(y)]) if *x == 0.0 && *y == 0.0 => found(
+                    "hypot",
+                    "both arguments are 0, where hypot has the tip of a cone and no derivative"
+                        .into(),
+                ),
+                (Func::Atan2, [Some(y), Some(x)]) if *y == 0.0 && *x < 0.0 => found(
+                    "atan2",
+                    "its first argument is 0 and its second negative: atan2 jumps from −π to π there"
+                        .into(),
+                ),
+                (Func::Sqrt | Func::Cbrt, [Some(x)]) if *x == 0.0 => found(
+                    f.name(),
+                    format!("its argument is 0, where {} has an infinite slope", f.name()),
+                ),
+                (Func::Asin | Func::Acos, [Some(x)]) if x.abs() == 1.0 => found(
+                    f.name(),
+                    format!(
+                        "its argument is {x}, where {} has an infinite slope",
+                        f.name()
+                    ),
+                ),
+                (Func::Acosh, [Some(x)]) if *x == 1.0 => found(
+                    "acosh",
+                    "its argument is 1, where acosh has an infinite slope".into(),
+                ),
+                (Func::Pow, [Some(b), Some(p)]) if zero_base(*b, *p) => found(
+                    "pow",
+                    format!("the base is 0 and the exponent {p} is not a whole number"),
+                ),
+                _ => {}
+            }
+            args.iter().for_each(|x| walk(x, env, out));
+        }
+        Kind::Pow(b, p) => {
+            if let (Some(bv), Some(pv)) = (value(b), value(p)) {
+                if zero_base(bv, pv) {
+                    found(
+                        "^",
+                        format!("the base is 0 and the exponent {pv} is not a whole number"),
+                    );
+                }
+            }
+            walk(b, env, out);
+            walk(p, env, out);
+        }
+        Kind::Neg(a) => walk(a, env, out),
+        Kind::Sum(ts) => ts.iter().for_each(|t| walk(&t.expr, env, out)),
+        Kind::Product(fs) => fs.iter().for_each(|f| walk(&f.expr, env, out)),
+        Kind::Num(_) | Kind::Pi | Kind::Var(_) => {}
+    }
+}
+
+/// 0^p with p not a whole number: no derivative (infinite slope for
+/// 0 < p < 1, the edge of the domain otherwise).
+fn zero_base(base: f64, exponent: f64) -> bool {
+    base == 0.0 && exponent.fract() != 0.0
+}
