@@ -329,6 +329,9 @@ impl Shell {
     fn result_line(&self, report: &Report, name: &str) -> Option<String> {
         report.results.iter().find(|r| r.name == name).map(|r| {
             let mut s = show(&r.name, r.value, r.standard_uncertainty, r.unit.as_deref());
+            if !r.warnings.is_empty() {
+                s = s.replace("(exact)", "(first-order u = 0, not exact: see the warning)");
+            }
             for w in &r.warnings {
                 s.push_str(&format!("\n  WARNING  {w}"));
             }
@@ -384,6 +387,9 @@ impl Shell {
                     .find(|r| r.name == "_")
                     .expect("added above");
                 let mut s = show("", r.value, r.standard_uncertainty, r.unit.as_deref());
+                if !r.warnings.is_empty() {
+                    s = s.replace("(exact)", "(first-order u = 0, not exact: see the warning)");
+                }
                 for w in &r.warnings {
                     s.push_str(&format!("\n  WARNING  {w}"));
                 }
