@@ -283,3 +283,48 @@ fn missing_and_unreadable_files() {
         "{err}"
     );
 }
+
+#[test]
+fn check_compares_like_with_like() {
+    // common practice, no published source: a stated figure is compared in the
+    // units of the budget, and the relative difference shown is the one judged.
+    let dir = scratch("check_units");
+    let cases: &[(&str, &str, bool, &str)] = &[
+        // a formula off by 2.5e-5 relative, inputs in mm, result in mm^3
+        (
+            "pi*d*h/2*(1 + 2.5e-5)",
+            "",
+            false,
+            "relative difference +2.50e-5",
+        ),
+        ("pi*d*h/2", "", true, "relative difference +0.00e0"),
+        // a stated u of 0 against a computed one that is not 0
+        (
+            "pi*d*h/2",
+            "expected_standard_uncertainty = 0\n",
+            false,
+            "standard uncertainty of V: stated 0",
+        ),
+        (
+            "pi*d*h/2",
+            "expected_standard_uncertainty = 1.1e3\n",
+            true,
+            "stated 1.1e3",
+        ),
+    ];
+    for (i, (formula, extra, agrees, fragment)) in cases.iter().enumerate() {
+        let text = format!(
+            "[inputs.d]\nvalue = 120\nstandard_uncertainty = 0.02\nunit = \"mm\"\nsensitivity = \"{formula}\"\n\
+             [inputs.h]\nvalue = 250\nstandard_uncertainty = 0.05\nunit = \"mm\"\n\
+             [[measurands]]\nname = \"V\"\nformula = \"pi*d^2*h/4\"\nunit = \"mm^3\"\n{extra}"
+        );
+        let p = write(&dir, &format!("c{i}.toml"), &text);
+        let (code, out, err) = incertus(&["check", p.to_str().unwrap()]);
+        assert_eq!(code == 0, *agrees, "case {i}: {out}{err}");
+        assert!(out.contains(fragment), "case {i}: {fragment:?} in\n{out}");
+        assert!(
+            !out.contains("e2 ") && !out.contains("+9.9"),
+            "case {i}: {out}"
+        );
+    }
+}

@@ -43,12 +43,22 @@ impl CheckReport {
     }
 }
 
+/// A stated number agrees when it lies within the rounding its digits
+/// imply; a stated 0 (no significant digit) agrees only with 0, and a
+/// figure that is not finite never agrees.
 fn number_agrees(s: &Stated, computed: f64) -> bool {
+    if !s.value.is_finite() || !computed.is_finite() {
+        return false;
+    }
+    if s.value == 0.0 && computed != 0.0 {
+        return false;
+    }
     (s.value - computed).abs() <= s.rounding() + 1e-9 * computed.abs()
 }
 
 fn rel(stated: f64, computed: f64) -> Option<f64> {
-    (computed != 0.0).then(|| (stated - computed) / computed.abs())
+    let r = (stated - computed) / computed.abs();
+    (computed != 0.0 && r.is_finite()).then_some(r)
 }
 
 fn close(a: f64, b: f64) -> bool {
@@ -106,17 +116,28 @@ pub fn check(model: &Model, report: &Report) -> CheckReport {
                         note: None,
                     }),
                     StatedSensitivity::Formula { text, expr, line } => {
+                        // Both the stated formula and the derivative are
+                        // evaluated in coherent SI (the inputs' values are
+                        // held so); the figures shown are converted to the
+                        // budget's units by f_in/f_out, and the relative
+                        // difference is the one the verdict was made on.
                         let d = derivative(f, &inp.name);
-                        let (agrees, stated_value, note) =
-                            compare_formula(model, &expanded, expr, &d);
+                        let to_shown = inp.unit_factor() / m.unit_factor();
+                        let cmp = compare_formula(model, &expanded, expr, &d, to_shown);
                         items.push(CheckItem {
                             what,
                             line: *line,
-                            stated: text.clone(),
+                            stated: match cmp.stated_at_estimates {
+                                Some(v) => format!(
+                                    "{text} = {}",
+                                    crate::rounding::significant(v * to_shown, 8)
+                                ),
+                                None => text.clone(),
+                            },
                             computed,
-                            relative_difference: stated_value.and_then(|v| rel(v, computed)),
-                            agrees,
-                            note,
+                            relative_difference: cmp.relative_difference,
+                            agrees: cmp.agrees,
+                            note: cmp.note,
                         });
                     }
                 }
@@ -128,12 +149,30 @@ pub fn check(model: &Model, report: &Report) -> CheckReport {
 
 /// Evaluate a stated formula (which may use inputs and measurands) and the
 /// symbolic derivative at the estimates and at moved points.
+struct FormulaComparison {
+    agrees: bool,
+    /// The stated formula's value at the estimates, in coherent SI.
+    stated_at_estimates: Option<f64>,
+    /// (stated − derivative)/|derivative| where the verdict was made: at the
+    /// first point where they differ, else at the estimates.
+    relative_difference: Option<f64>,
+    note: Option<String>,
+}
+
 fn compare_formula(
     model: &Model,
     expanded: &[(String, Expr)],
     stated: &Expr,
     symbolic: &Expr,
-) -> (bool, Option<f64>, Option<String>) {
+    to_shown: f64,
+) -> FormulaComparison {
+    let result = |agrees, at: Option<f64>, rd, note| FormulaComparison {
+        agrees,
+        stated_at_estimates: at,
+        relative_difference: rd,
+        note,
+    };
+    let mut relative_at_estimates = None;
     let n = model.inputs.len();
     type Shift = fn(usize) -> f64;
     let patterns: [(&str, Shift); 4] = [
@@ -178,22 +217,27 @@ fn compare_formula(
             (Ok(a), Ok(b)) => {
                 if k == 0 {
                     at_estimate = Some(a);
+                    relative_at_estimates = rel(a, b);
                 }
                 if !close(a, b) {
+                    let (a_shown, b_shown) = (a * to_shown, b * to_shown);
                     let note = if k == 0 {
-                        format!("the stated formula gives {a} {where_}, the derivative {b}")
+                        format!(
+                            "the stated formula gives {a_shown} {where_}, the derivative {b_shown}"
+                        )
                     } else {
                         format!(
                             "the stated formula agrees at the estimates but not {where_} \
-                             ({a} against {b}): it is not the derivative of the model"
+                             ({a_shown} against {b_shown}): it is not the derivative of the model"
                         )
                     };
-                    return (false, at_estimate, Some(note));
+                    return result(false, at_estimate, rel(a, b), Some(note));
                 }
             }
             (Err(e), _) if k == 0 => {
-                return (
+                return result(
                     false,
+                    None,
                     None,
                     Some(format!(
                         "the stated formula cannot be evaluated at the estimates: {}",
@@ -204,5 +248,5 @@ fn compare_formula(
             _ => {}
         }
     }
-    (true, at_estimate, None)
+    result(true, at_estimate, relative_at_estimates, None)
 }

@@ -2197,6 +2197,16 @@ impl Loader<'_> {
         };
         let line = doc.line(&p.span);
         let stated = match p.value {
+            RawSensitivity::Number(n) if !n.value.is_finite() => {
+                return Err(doc.error(
+                    p.span.clone(),
+                    &p.path,
+                    format!(
+                        "`{}` is not a finite number; a stated sensitivity coefficient must be one",
+                        n.text
+                    ),
+                ));
+            }
             RawSensitivity::Number(n) => StatedSensitivity::Number(Stated {
                 value: n.value,
                 text: n.text,
