@@ -17,9 +17,9 @@ fn main() {
         println!(
             "{name:9} = {:.4} ± {:.4} ohm",
             y.value(),
-            s.standard_uncertainty(y)
+            s.standard_uncertainty(y).expect("one session")
         );
-        for line in s.budget(y) {
+        for line in s.budget(y).expect("one session") {
             println!(
                 "    {:3} c = {:+.5}  contribution {:.5} ohm",
                 line.input, line.sensitivity, line.contribution
@@ -28,7 +28,7 @@ fn main() {
     }
     println!(
         "correlation of series and parallel: {:.4}",
-        s.correlation(&series, &parallel)
+        s.correlation(&series, &parallel).expect("one session")
     );
     // A result minus itself computed another way is exactly zero.
     let again = &r2 + &r1;
@@ -36,6 +36,6 @@ fn main() {
     println!(
         "series - (R2 + R1) = {} ± {}",
         zero.value(),
-        s.standard_uncertainty(&zero)
+        s.standard_uncertainty(&zero).expect("one session")
     );
 }

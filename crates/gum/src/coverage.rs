@@ -28,6 +28,159 @@ pub fn welch_satterthwaite(uc: f64, components: &[(f64, Dof)]) -> Dof {
     }
 }
 
+/// Effective degrees of freedom of u_c² = Σ_ij w_i w_j r_ij (w_i = c_i
+/// u(x_i)) when inputs are correlated.
+///
+/// Derivation (Satterthwaite's matching of two moments, the argument behind
+/// JCGM 100:2008, G.4.1, carried through the correlation terms). The inputs
+/// fall into *blocks* whose standard uncertainties share one estimated
+/// scale: a single input, the inputs observed together (JCGM 100:2008,
+/// 5.2.3: one sample covariance matrix, Wishart with n − 1 dof), or the
+/// parameters of one fit (covariance s²(XᵀX)⁻¹, one residual variance).
+/// Write the estimate of block B's uncertainties as λ_B times their true
+/// values, λ_B² ~ χ²_ν/ν, the λ_B of different blocks independent (a block
+/// of infinite dof has λ = 1). Then the estimated variance is
+/// û² = Σ_AB Q_AB λ_A λ_B with Q_AB = Σ_{i∈A, j∈B} w_i w_j r_ij. Its mean
+/// and variance follow exactly from the moments E[λ^k] (`scale_moment`),
+/// and a scaled χ² with the same two moments has ν_eff = 2 E[û²]²/var(û²).
+/// Without correlations between blocks this is exactly eq. (G.2b); a block
+/// alone gives exactly its ν (a quadratic form in a Wishart matrix is a
+/// scaled χ²). A published generalisation for correlated components
+/// appeared in Metrologia in 2007 (R. Willink; recalled from memory, not
+/// checked here). The coverage this rule gives is checked by simulating
+/// repeated experiments in `crates/gum/tests/effective_dof.rs`.
+///
+/// `block[i]` names the block of input i (any labels), `block_dof[i]` its
+/// dof (`None` = infinite: that block adds nothing). `r(i, j)` gives the
+/// correlation coefficient (1 on the diagonal). `None` when no block with
+/// finite dof contributes.
+///
+/// ```
+/// use incertus_gum::coverage::effective_dof_correlated;
+/// // Independent, w = (1, 1), 4 dof each: Welch-Satterthwaite gives 2²/(1/4 + 1/4) = 8.
+/// let nu = effective_dof_correlated(&[1.0, 1.0], &|i, j| if i == j { 1.0 } else { 0.0 },
+///     &[0, 1], &[Some(4.0), Some(4.0)]);
+/// assert!((nu.unwrap() - 8.0).abs() < 1e-12);
+/// ```
+pub fn effective_dof_correlated(
+    w: &[f64],
+    r: &dyn Fn(usize, usize) -> f64,
+    block: &[usize],
+    block_dof: &[Dof],
+) -> Dof {
+    let n = w.len();
+    let scale = w.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+    if scale == 0.0 || !scale.is_finite() {
+        return None;
+    }
+    let v: Vec<f64> = w.iter().map(|x| x / scale).collect();
+    // Blocks: labels and dof (the least of the members'; None = infinite).
+    let mut labels: Vec<usize> = block.to_vec();
+    labels.sort_unstable();
+    labels.dedup();
+    let nb = labels.len();
+    let of: Vec<usize> = block
+        .iter()
+        .map(|b| labels.binary_search(b).expect("a label of the list"))
+        .collect();
+    let mut nu: Vec<Option<f64>> = vec![None; nb];
+    for i in 0..n {
+        if let Some(d) = block_dof[i] {
+            nu[of[i]] = Some(nu[of[i]].map_or(d, |m: f64| m.min(d)));
+        }
+    }
+    // Q_AB = Σ_{i∈A, j∈B} v_i v_j r_ij (symmetric, sparse).
+    let mut q: std::collections::BTreeMap<(usize, usize), f64> = Default::default();
+    for i in 0..n {
+        if v[i] == 0.0 {
+            continue;
+        }
+        for j in 0..n {
+            if v[j] == 0.0 {
+                continue;
+            }
+            let rij = if i == j { 1.0 } else { r(i, j) };
+            if rij != 0.0 {
+                let (a, b) = (of[i].min(of[j]), of[i].max(of[j]));
+                *q.entry((a, b)).or_insert(0.0) += v[i] * v[j] * rij;
+            }
+        }
+    }
+    let total: f64 = q.values().sum();
+    if total <= 0.0 {
+        return None;
+    }
+    // Terms of û² = Σ_B Q_BB λ_B² + Σ_{A<B} Q_AB λ_A λ_B (Q_AB holds both
+    // orders), with the finite-dof blocks they involve.
+    let terms: Vec<(f64, usize, usize)> = q
+        .iter()
+        .filter(|(_, &c)| c != 0.0)
+        .map(|(&(a, b), &c)| (c / total, a, b))
+        .collect();
+    let moment = |b: usize, k: i32| -> f64 { nu[b].map_or(1.0, |d| scale_moment(d, k)) };
+    // E[Π λ^powers] for a multiset of blocks.
+    let expect = |blocks: &[usize]| -> f64 {
+        let mut sorted = blocks.to_vec();
+        sorted.sort_unstable();
+        let mut e = 1.0;
+        let mut i = 0;
+        while i < sorted.len() {
+            let mut k = 1;
+            while i + k < sorted.len() && sorted[i + k] == sorted[i] {
+                k += 1;
+            }
+            e *= moment(sorted[i], k as i32);
+            i += k;
+        }
+        e
+    };
+    let random = |b: usize| nu[b].is_some();
+    let mean: f64 = terms.iter().map(|&(c, a, b)| c * expect(&[a, b])).sum();
+    let mut var = 0.0;
+    for &(c1, a1, b1) in &terms {
+        if !random(a1) && !random(b1) {
+            continue;
+        }
+        for &(c2, a2, b2) in &terms {
+            let shares = [a1, b1]
+                .iter()
+                .any(|x| random(*x) && (*x == a2 || *x == b2));
+            if shares {
+                var +=
+                    c1 * c2 * (expect(&[a1, b1, a2, b2]) - expect(&[a1, b1]) * expect(&[a2, b2]));
+            }
+        }
+    }
+    if var <= 0.0 {
+        None
+    } else {
+        Some(2.0 * mean * mean / var)
+    }
+}
+
+/// E[λ^k] for λ² ~ χ²_ν/ν (the ratio of an estimated to the true standard
+/// uncertainty with ν dof): 1 for k = 2, (ν + 2)/ν for k = 4,
+/// c(ν) = √(2/ν) Γ((ν+1)/2)/Γ(ν/2) for k = 1 and c(ν)(ν + 1)/ν for k = 3
+/// (from Γ(x + 1) = xΓ(x)). c(ν) by log-gamma up to 10⁴ dof, above by its
+/// asymptotic series 1 − 1/(4ν) + 1/(32ν²) + 5/(128ν³).
+fn scale_moment(nu: f64, k: i32) -> f64 {
+    let c = || {
+        if nu <= 1e4 {
+            ((2.0 / nu).ln() * 0.5 + libm::lgamma((nu + 1.0) / 2.0) - libm::lgamma(nu / 2.0)).exp()
+        } else {
+            1.0 - 1.0 / (4.0 * nu) + 1.0 / (32.0 * nu * nu) + 5.0 / (128.0 * nu * nu * nu)
+        }
+    };
+    match k {
+        0 => 1.0,
+        1 => c(),
+        2 => 1.0,
+        3 => c() * (nu + 1.0) / nu,
+        4 => (nu + 2.0) / nu,
+        _ => unreachable!("products of two terms have at most four factors"),
+    }
+}
+
 /// The degrees of freedom used for the coverage factor: ν_eff truncated to
 /// the next lower integer (G.4.1) or as computed, but never below 1.
 pub fn dof_used(nu_eff: Dof, rounding: DofRounding) -> Dof {

@@ -15,8 +15,8 @@
 //! assert_eq!(z.value(), 6.0 + 2f64.sin());
 //! let y2 = &x * &x;
 //! let zero = &y2 - &(&x * &x);
-//! assert_eq!(s.standard_uncertainty(&zero), 0.0);
-//! assert!(s.standard_uncertainty(&z) > 0.0);
+//! assert_eq!(s.standard_uncertainty(&zero).unwrap(), 0.0);
+//! assert!(s.standard_uncertainty(&z).unwrap() > 0.0);
 //! ```
 //!
 //! The budget of a result ([`Session::budget`]) is the one the symbolic
@@ -24,15 +24,43 @@
 
 use std::ops::{Add, Div, Mul, Neg, Sub};
 
-use crate::coverage::welch_satterthwaite;
+use std::sync::atomic::{AtomicU64, Ordering};
+
+use crate::coverage::effective_dof_correlated;
 use crate::model::Dof;
 
-/// A value and its sensitivity coefficients to the base inputs (sorted by
+/// Sessions are numbered from 1; 0 marks a number that depends on no input.
+static NEXT_SESSION: AtomicU64 = AtomicU64::new(1);
+/// A number computed from the inputs of more than one session.
+const MIXED: u64 = u64::MAX;
+
+/// Sensitivity coefficients to the base inputs of one session (sorted by
 /// input index, zeros dropped).
+#[derive(Clone, Debug, Default, PartialEq)]
+struct Grad {
+    session: u64,
+    terms: Vec<(usize, f64)>,
+}
+
+/// A value and its sensitivity coefficients to the base inputs.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Uncertain {
     value: f64,
-    grad: Vec<(usize, f64)>,
+    grad: Grad,
+}
+
+/// A number that does not belong to the session asked about it.
+#[derive(Clone, Debug, PartialEq, Eq, thiserror::Error)]
+pub enum SessionError {
+    /// The number was made from the inputs of another session.
+    #[error("this uncertain number was made from the inputs of another session; ask that session")]
+    OtherSession,
+    /// The number combines inputs of two or more sessions.
+    #[error(
+        "this uncertain number combines inputs of different sessions, so its uncertainty is not defined; \
+         make every input of a calculation in one session"
+    )]
+    MixedSessions,
 }
 
 /// One base input of a session.
@@ -45,10 +73,21 @@ pub struct BaseInput {
 }
 
 /// The base inputs and their correlations.
-#[derive(Clone, Debug, Default)]
+#[derive(Clone, Debug)]
 pub struct Session {
+    id: u64,
     inputs: Vec<BaseInput>,
     correlations: Vec<(usize, usize, f64)>,
+}
+
+impl Default for Session {
+    fn default() -> Session {
+        Session {
+            id: NEXT_SESSION.fetch_add(1, Ordering::Relaxed),
+            inputs: Vec::new(),
+            correlations: Vec::new(),
+        }
+    }
 }
 
 /// One line of the budget of an uncertain number.
@@ -83,7 +122,10 @@ impl Session {
         });
         Uncertain {
             value,
-            grad: if u != 0.0 { vec![(i, 1.0)] } else { Vec::new() },
+            grad: Grad {
+                session: self.id,
+                terms: if u != 0.0 { vec![(i, 1.0)] } else { Vec::new() },
+            },
         }
     }
 
@@ -91,10 +133,23 @@ impl Session {
         &self.inputs
     }
 
+    /// Whether `y` may be asked about here: made from this session's inputs
+    /// (or from none).
+    fn owns(&self, y: &Uncertain) -> Result<(), SessionError> {
+        match y.grad.session {
+            0 => Ok(()),
+            MIXED => Err(SessionError::MixedSessions),
+            s if s == self.id => Ok(()),
+            _ => Err(SessionError::OtherSession),
+        }
+    }
+
     /// Set the correlation coefficient of two base inputs (each must be an
     /// input itself, not a result).
     pub fn correlate(&mut self, a: &Uncertain, b: &Uncertain, r: f64) -> Result<(), String> {
-        let one = |x: &Uncertain| match x.grad.as_slice() {
+        self.owns(a).map_err(|e| e.to_string())?;
+        self.owns(b).map_err(|e| e.to_string())?;
+        let one = |x: &Uncertain| match x.grad.terms.as_slice() {
             [(i, c)] if *c == 1.0 && x.value == self.inputs[*i].value => Some(*i),
             _ => None,
         };
@@ -126,15 +181,17 @@ impl Session {
     }
 
     /// u(y) = √(cᵀ V c) over the base inputs.
-    pub fn standard_uncertainty(&self, y: &Uncertain) -> f64 {
-        self.covariance(y, y).max(0.0).sqrt()
+    pub fn standard_uncertainty(&self, y: &Uncertain) -> Result<f64, SessionError> {
+        Ok(self.covariance(y, y)?.max(0.0).sqrt())
     }
 
     /// u(y, z) = c_yᵀ V c_z: results sharing inputs are correlated.
-    pub fn covariance(&self, y: &Uncertain, z: &Uncertain) -> f64 {
+    pub fn covariance(&self, y: &Uncertain, z: &Uncertain) -> Result<f64, SessionError> {
+        self.owns(y)?;
+        self.owns(z)?;
         let mut s = 0.0;
-        for &(i, ci) in &y.grad {
-            for &(j, cj) in &z.grad {
+        for &(i, ci) in &y.grad.terms {
+            for &(j, cj) in &z.grad.terms {
                 let r = self.corr(i, j);
                 if r != 0.0 {
                     s += ci
@@ -145,22 +202,24 @@ impl Session {
                 }
             }
         }
-        s
+        Ok(s)
     }
 
     /// Correlation coefficient of two results.
-    pub fn correlation(&self, y: &Uncertain, z: &Uncertain) -> f64 {
-        let (a, b) = (self.standard_uncertainty(y), self.standard_uncertainty(z));
-        if a == 0.0 || b == 0.0 {
+    pub fn correlation(&self, y: &Uncertain, z: &Uncertain) -> Result<f64, SessionError> {
+        let (a, b) = (self.standard_uncertainty(y)?, self.standard_uncertainty(z)?);
+        Ok(if a == 0.0 || b == 0.0 {
             0.0
         } else {
-            self.covariance(y, z) / (a * b)
-        }
+            self.covariance(y, z)? / (a * b)
+        })
     }
 
     /// The budget: one line per base input the result depends on.
-    pub fn budget(&self, y: &Uncertain) -> Vec<Line> {
-        y.grad
+    pub fn budget(&self, y: &Uncertain) -> Result<Vec<Line>, SessionError> {
+        self.owns(y)?;
+        Ok(y.grad
+            .terms
             .iter()
             .map(|&(i, c)| {
                 let b = &self.inputs[i];
@@ -172,28 +231,40 @@ impl Session {
                     contribution: (c * b.standard_uncertainty).abs(),
                 }
             })
-            .collect()
+            .collect())
     }
 
-    /// Welch-Satterthwaite effective dof (JCGM 100:2008, G.4.1; correlated
-    /// inputs counted as in the symbolic engine: a group with its least dof).
-    pub fn effective_dof(&self, y: &Uncertain) -> Dof {
-        let uc = self.standard_uncertainty(y);
-        let comps: Vec<(f64, Dof)> = y
+    /// Effective degrees of freedom: Welch-Satterthwaite (JCGM 100:2008,
+    /// G.4.1), generalised to the correlations of the session by the same
+    /// rule as `propagate` (`coverage::effective_dof_correlated`; each base
+    /// input is its own block).
+    pub fn effective_dof(&self, y: &Uncertain) -> Result<Dof, SessionError> {
+        self.owns(y)?;
+        let idx: Vec<usize> = y.grad.terms.iter().map(|t| t.0).collect();
+        let w: Vec<f64> = y
             .grad
+            .terms
             .iter()
-            .map(|&(i, c)| {
-                (
-                    (c * self.inputs[i].standard_uncertainty).abs(),
-                    self.inputs[i].dof,
-                )
-            })
+            .map(|&(i, c)| c * self.inputs[i].standard_uncertainty)
             .collect();
-        welch_satterthwaite(uc, &comps)
+        let dof: Vec<Dof> = idx.iter().map(|&i| self.inputs[i].dof).collect();
+        let block: Vec<usize> = (0..idx.len()).collect();
+        Ok(effective_dof_correlated(
+            &w,
+            &|a, b| self.corr(idx[a], idx[b]),
+            &block,
+            &dof,
+        ))
     }
 }
 
-fn merge(a: &[(usize, f64)], ka: f64, b: &[(usize, f64)], kb: f64) -> Vec<(usize, f64)> {
+fn merge(ga: &Grad, ka: f64, gb: &Grad, kb: f64) -> Grad {
+    let session = match (ga.session, gb.session) {
+        (0, s) | (s, 0) => s,
+        (x, y) if x == y => x,
+        _ => MIXED,
+    };
+    let (a, b) = (ga.terms.as_slice(), gb.terms.as_slice());
     let mut out = Vec::with_capacity(a.len() + b.len());
     let (mut i, mut j) = (0, 0);
     while i < a.len() || j < b.len() {
@@ -221,7 +292,10 @@ fn merge(a: &[(usize, f64)], ka: f64, b: &[(usize, f64)], kb: f64) -> Vec<(usize
             out.push((idx, v));
         }
     }
-    out
+    Grad {
+        session,
+        terms: out,
+    }
 }
 
 impl Uncertain {
@@ -229,7 +303,7 @@ impl Uncertain {
     pub fn exact(value: f64) -> Uncertain {
         Uncertain {
             value,
-            grad: Vec::new(),
+            grad: Grad::default(),
         }
     }
 
@@ -239,21 +313,29 @@ impl Uncertain {
 
     /// The sensitivity coefficient to base input `i` of the session.
     pub fn sensitivity(&self, i: usize) -> f64 {
-        self.grad.iter().find(|(k, _)| *k == i).map_or(0.0, |t| t.1)
+        self.grad
+            .terms
+            .iter()
+            .find(|(k, _)| *k == i)
+            .map_or(0.0, |t| t.1)
     }
 
     /// Apply a function of one argument with derivative `d` at the value.
     fn chain(&self, value: f64, d: f64) -> Uncertain {
         Uncertain {
             value,
-            grad: self
-                .grad
-                .iter()
-                .filter_map(|&(i, c)| {
-                    let v = c * d;
-                    (v != 0.0).then_some((i, v))
-                })
-                .collect(),
+            grad: Grad {
+                session: self.grad.session,
+                terms: self
+                    .grad
+                    .terms
+                    .iter()
+                    .filter_map(|&(i, c)| {
+                        let v = c * d;
+                        (v != 0.0).then_some((i, v))
+                    })
+                    .collect(),
+            },
         }
     }
 
@@ -368,7 +450,7 @@ impl Uncertain {
     pub fn pow(&self, e: &Uncertain) -> Uncertain {
         let v = self.value.powf(e.value);
         let da = e.value * self.value.powf(e.value - 1.0);
-        let db = if e.grad.is_empty() {
+        let db = if e.grad.terms.is_empty() {
             0.0
         } else {
             v * self.value.ln()

@@ -8,18 +8,18 @@
 //! and enter each budget correctly.
 //!
 //! Effective dof with correlated inputs: JCGM 100:2008, G.4.1 assumes
-//! independent components. Inputs linked by correlations are therefore
-//! grouped (connected components of the correlation graph); each group's
-//! joint contribution u_G² = Σ_{i,j∈G} c_i c_j u(x_i, x_j) enters the
-//! Welch-Satterthwaite formula as one component with the smallest dof in the
-//! group. For inputs observed together (5.2.3) all members share n − 1 dof,
-//! so this is exact in the sense of G.4.1; otherwise it is conservative. The
-//! report says when this was done.
+//! independent components. Here the Welch-Satterthwaite formula is
+//! generalised by Satterthwaite's two-moment match (derivation at
+//! `coverage::effective_dof_correlated`): inputs observed together and the
+//! parameters of one fit form blocks with one estimated scale each, and
+//! every block counts with its share of u_c² including its correlation
+//! terms. It reduces to G.4.1 without correlations and is exact (n − 1) for
+//! a block alone; its coverage is checked by simulation in the tests.
 
 use incertus_expr::{derivative, print, simplify, Expr, Kind};
 use serde::Serialize;
 
-use crate::coverage::{coverage_factor, dof_used, welch_satterthwaite};
+use crate::coverage::{coverage_factor, dof_used, effective_dof_correlated};
 use crate::model::{Distribution, Dof, Evaluation, Measurand, Model};
 
 /// Options of one evaluation.
@@ -218,7 +218,10 @@ fn label(model: &Model, i: usize) -> (String, Option<usize>) {
     }
 }
 
-/// Union-find over inputs linked by a non-zero correlation.
+/// Blocks of inputs whose uncertainties share one estimated scale:
+/// union-find over the correlations that come from observations taken
+/// together or from one fit (see `coverage::effective_dof_correlated`).
+/// Stated correlations do not join blocks.
 fn groups(model: &Model) -> Vec<usize> {
     let n = model.inputs.len();
     let mut parent: Vec<usize> = (0..n).collect();
@@ -230,7 +233,7 @@ fn groups(model: &Model) -> Vec<usize> {
         i
     }
     for c in &model.correlations {
-        if c.coefficient != 0.0 {
+        if c.coefficient != 0.0 && (c.from_observations || c.from_fit.is_some()) {
             let (a, b) = (find(&mut parent, c.a), find(&mut parent, c.b));
             parent[a] = b;
         }
@@ -364,38 +367,28 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             }
         };
 
-        // Effective dof.
-        let mut components: Vec<(f64, Dof)> = Vec::new();
-        let mut seen_groups: Vec<usize> = Vec::new();
-        for &i in &used {
-            let g = group_of[i];
-            if seen_groups.contains(&g) {
-                continue;
-            }
-            seen_groups.push(g);
-            let members: Vec<usize> = used.iter().copied().filter(|&j| group_of[j] == g).collect();
-            if members.len() == 1 {
-                components.push((s * w[i].abs(), model.inputs[i].dof));
-                continue;
-            }
-            let mut q = 0.0;
-            for &a in &members {
-                for &b in &members {
-                    q += w[a] * w[b] * model.correlation(a, b);
-                }
-            }
-            let dof = members
-                .iter()
-                .filter_map(|&j| model.inputs[j].dof)
-                .fold(None, |acc: Option<f64>, d| {
-                    Some(acc.map_or(d, |a| a.min(d)))
-                });
-            if dof.is_some() {
-                grouped_note = true;
-            }
-            components.push((s * q.max(0.0).sqrt(), dof));
+        // Effective dof: Welch-Satterthwaite generalised to correlated
+        // inputs by the delta method (coverage::effective_dof_correlated;
+        // G.4.1 when nothing is correlated).
+        let block: Vec<usize> = used.iter().map(|&i| group_of[i]).collect();
+        let block_dof: Vec<Dof> = used.iter().map(|&i| model.inputs[i].dof).collect();
+        let wu: Vec<f64> = used.iter().map(|&i| w[i]).collect();
+        if corr_lines
+            .iter()
+            .any(|(cor, _)| model.inputs[cor.a].dof.is_some() || model.inputs[cor.b].dof.is_some())
+        {
+            grouped_note = true;
         }
-        let nu_eff = welch_satterthwaite(uc, &components);
+        let nu_eff = if uc > 0.0 {
+            effective_dof_correlated(
+                &wu,
+                &|a, b| model.correlation(used[a], used[b]),
+                &block,
+                &block_dof,
+            )
+        } else {
+            None
+        };
         let nu_used = dof_used(nu_eff, model.dof_rounding);
         if nu_eff.is_some_and(|v| v < 1.0) {
             notes.push(format!(
@@ -570,9 +563,10 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     }
     if grouped_note {
         notes.push(
-            "correlated inputs with finite degrees of freedom were grouped for the Welch-Satterthwaite \
-             formula: each group's joint contribution counts once, with the smallest dof in the group \
-             (JCGM 100:2008, G.4.1 assumes independent components)"
+            "correlated inputs with finite degrees of freedom: ν_eff by Satterthwaite's two-moment match \
+             carried through the correlation terms (inputs whose uncertainties share one estimate, as when \
+             observed together or fitted together, count as one block with its dof; JCGM 100:2008, G.4.1 \
+             when nothing is correlated)"
                 .to_string(),
         );
     }

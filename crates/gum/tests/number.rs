@@ -69,7 +69,7 @@ proptest! {
             let ad = q.sensitivity(i);
             prop_assert!((ad - sym).abs() <= 1e-10 * (1.0 + sym.abs()), "{f}: c_{name} {ad} vs {sym}");
         }
-        let u = s.standard_uncertainty(&q);
+        let u = s.standard_uncertainty(&q).expect("one session");
         prop_assert!((u - g.standard_uncertainty).abs() <= 1e-10 * (1e-300 + g.standard_uncertainty), "{f}: u {u} vs {}", g.standard_uncertainty);
     }
 }
@@ -81,12 +81,54 @@ fn shared_inputs_correlate_results_and_cancel_exactly() {
     let y = &x * &x;
     let d = &y - &(&x * &x);
     assert_eq!(d.value(), 0.0);
-    assert_eq!(s.standard_uncertainty(&d), 0.0);
+    assert_eq!(s.standard_uncertainty(&d).expect("one session"), 0.0);
     // y = x² and w = 2x are fully correlated (both increase with x).
     let w = 2.0 * &x;
-    assert!((s.correlation(&y, &w) - 1.0).abs() < 1e-15);
-    let budget = s.budget(&y);
+    assert!((s.correlation(&y, &w).expect("one session") - 1.0).abs() < 1e-15);
+    let budget = s.budget(&y).expect("one session");
     assert_eq!(budget.len(), 1);
     assert_eq!(budget[0].sensitivity, 6.0);
     assert!((budget[0].contribution - 1.2).abs() < 1e-15);
+}
+
+#[test]
+fn numbers_of_another_session_are_refused() {
+    // common practice, no published source: an uncertainty is a property of a session's inputs.
+    use incertus_gum::number::SessionError;
+    let mut a = Session::new();
+    let mut b = Session::new();
+    let x = a.input("x", 2.0, 0.1);
+    let y = b.input("y", 3.0, 0.2);
+    assert_eq!(b.standard_uncertainty(&x), Err(SessionError::OtherSession));
+    let mixed = &x + &y;
+    assert_eq!(
+        a.standard_uncertainty(&mixed),
+        Err(SessionError::MixedSessions)
+    );
+    assert_eq!(b.effective_dof(&mixed), Err(SessionError::MixedSessions));
+    assert!(a.correlate(&x, &y, 0.5).is_err());
+    // Exact numbers belong to every session.
+    let z = &x * 3.0;
+    assert!((a.standard_uncertainty(&z).unwrap() - 0.3).abs() < 1e-15);
+}
+
+#[test]
+fn session_dof_follows_the_correlations_as_propagate_does() {
+    // The same rule as the symbolic engine (coverage::effective_dof_correlated).
+    let mut s = Session::new();
+    let a = s.input_with_dof("a", 1.0, 0.2, Some(4.0));
+    let b = s.input_with_dof("b", 2.0, 0.3, Some(6.0));
+    s.correlate(&a, &b, 0.6).unwrap();
+    let y = &a - &b;
+    let model = incertus_gum::load_str(
+        "[inputs.a]\nvalue = 1\nstandard_uncertainty = 0.2\ndof = 4\n[inputs.b]\nvalue = 2\nstandard_uncertainty = 0.3\ndof = 6\n[[correlations]]\ninputs = [\"a\", \"b\"]\ncoefficient = 0.6\n[[measurands]]\nname = \"y\"\nformula = \"a - b\"\n",
+        "t.toml",
+    )
+    .unwrap();
+    let r = incertus_gum::propagate(&model, &Default::default()).unwrap();
+    let nu = s.effective_dof(&y).unwrap().unwrap();
+    assert!(
+        (nu / r.results[0].effective_dof.unwrap() - 1.0).abs() < 1e-12,
+        "{nu}"
+    );
 }
