@@ -55,23 +55,26 @@ fn jcgm100_h1_is_not_validated() {
 }
 
 #[test]
-fn jcgm100_h2_is_validated_to_one_digit() {
-    // Inputs observed together get a multivariate t with ν = 4 (JCGM 101:2008,
-    // 6.4.9), whose standard deviation is √(ν/(ν − 2)) = √2 times u_c, while
-    // its 95 % interval matches the first-order one with k = t95(4): the
-    // intervals agree to one significant digit of u (ndig = 1).
+fn jcgm100_h2_observed_together_is_sampled_from_the_posterior() {
+    // Three quantities observed together five times (JCGM 100:2008, H.2): the
+    // posterior is a multivariate t with ν = n − N = 2 (JCGM 101:2008, 6.4.8;
+    // JCGM 102:2011, 6.5.3; recalled from memory, checked by the variance in
+    // crates/mc/tests/samplers.rs), far heavier-tailed than the t with 4 dof
+    // the first-order result uses, so its 95 % interval is wider and the
+    // first-order result is not validated.
     let r = mc("jcgm100_h2_impedance.toml", 1);
-    for m in &r.results {
-        assert!(m.validation.passed, "{}: {:?}", m.name, m.validation);
-    }
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/models/jcgm100_h2_impedance.toml");
     let gum = propagate(&load_file(&path).unwrap(), &Options::default()).unwrap();
-    let ratio = r.results[0].standard_uncertainty / gum.results[0].standard_uncertainty;
-    assert!((ratio - 2f64.sqrt()).abs() < 0.01, "{ratio}");
-    // The measurands' correlations come out of the shared trials (Table H.3).
+    for (m, g) in r.results.iter().zip(&gum.results) {
+        assert!(!m.validation.passed, "{}: {:?}", m.name, m.validation);
+        let width = m.symmetric_interval[1] - m.symmetric_interval[0];
+        assert!(width > 2.0 * g.expanded_uncertainty, "{}: {width}", m.name);
+    }
+    // The measurands' correlations come out of the shared trials (Table H.3):
+    // an elliptical distribution keeps the scale matrix's correlation.
     let c = &r.correlation_matrix.matrix;
     assert!(
-        (c[0][1] + 0.588).abs() < 0.01 && (c[1][2] - 0.993).abs() < 0.002,
+        (c[0][1] + 0.588).abs() < 0.03 && (c[1][2] - 0.993).abs() < 0.01,
         "{c:?}"
     );
 }

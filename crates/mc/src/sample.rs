@@ -32,7 +32,7 @@
 //!   marginals is close to, not exactly, the stated value (the report says so).
 
 use incertus_gum::matrix::cholesky_semidefinite;
-use incertus_gum::{Distribution, Model};
+use incertus_gum::{Distribution, Evaluation, Model};
 use rand::RngExt;
 use rand_distr::{ChiSquared, Distribution as _, Exp1, Gamma, StandardNormal, StudentT};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -386,7 +386,8 @@ pub fn describe(groups: &[Group], model: &Model) -> Vec<String> {
                 names(inputs)
             )),
             Group::MultiT { inputs, nu, .. } => Some(format!(
-                "{}: multivariate t with {nu} dof from observations taken together (JCGM 101:2008, 6.4.9)",
+                "{}: multivariate t with {nu} dof (observations taken together: n − N; a fit: its residual \
+                 dof; JCGM 101:2008, 6.4.8 and 6.4.9)",
                 names(inputs)
             )),
             Group::Copula { inputs, .. } => Some(format!(
@@ -485,7 +486,49 @@ pub fn groups(model: &Model) -> Result<Vec<Group>, String> {
                 l: chol(&cov)?,
             });
         } else if same_t {
-            let nu = dofs[0].expect("checked");
+            // Quantities observed together (no fit among the correlations):
+            // N quantities from n joint observations have, under the
+            // non-informative prior, a multivariate t posterior with
+            // ν = n − N and scale matrix C/(n(n − N)), C = Σ (x_k − x̄)(x_k − x̄)ᵀ
+            // = (n − 1)·S (JCGM 101:2008, 6.4.8.1; Gelman et al., Bayesian Data
+            // Analysis, 3.6; both recalled from memory, and checked by the
+            // variance (n − 1)/(n − N − 2)·S/n in crates/mc/tests/samplers.rs).
+            // The parameters of one fit keep their residual dof (the scale
+            // matrix is s²(XᵀX)⁻¹ already).
+            let together = model
+                .correlations
+                .iter()
+                .filter(|c| members.contains(&c.a))
+                .all(|c| c.from_fit.is_none());
+            let n_obs = members
+                .iter()
+                .map(|&m| match model.inputs[m].evaluation {
+                    Evaluation::TypeA { n, pooled: false } => Some(n),
+                    _ => None,
+                })
+                .collect::<Option<Vec<usize>>>()
+                .filter(|ns| ns.iter().all(|&n| n == ns[0]))
+                .map(|ns| ns[0]);
+            let (nu, cov) = match (together, n_obs) {
+                (true, Some(n)) => {
+                    if n <= k {
+                        return Err(format!(
+                            "{} are observed together {n} times: propagation of distributions needs \
+                             more observations than quantities ({k}) to sample them jointly \
+                             (multivariate t with n − N = {} dof)",
+                            group_names.join(", "),
+                            n as i64 - k as i64
+                        ));
+                    }
+                    let f = (n as f64 - 1.0) / (n - k) as f64;
+                    let scaled: Vec<Vec<f64>> = cov
+                        .iter()
+                        .map(|row| row.iter().map(|v| v * f).collect())
+                        .collect();
+                    ((n - k) as f64, scaled)
+                }
+                _ => (dofs[0].expect("checked"), cov),
+            };
             out.push(Group::MultiT {
                 inputs: members,
                 x,

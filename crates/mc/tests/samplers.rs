@@ -248,8 +248,10 @@ formula = "a + b"
 
 #[test]
 fn inputs_observed_together_get_a_multivariate_t() {
-    // JCGM 101:2008, 6.4.9 with 5.2.3: shared ν = n - 1, covariance of the
-    // draws ν/(ν - 2) times the covariance of the means.
+    // JCGM 101:2008, 6.4.8 with JCGM 100:2008, 5.2.3: n = 7 observations of
+    // N = 2 quantities give ν = n − N = 5 and a scale matrix (n − 1)/(n − N)
+    // times the covariance of the means, so the draws' covariance is
+    // (n − 1)/(n − N − 2) = 2 times it (derivation beside the sampler).
     let m = load_str(
         r#"
 [inputs.a]
@@ -269,7 +271,7 @@ formula = "a + b"
     let Group::MultiT { nu, .. } = &g[0] else {
         panic!("{:?}", g[0])
     };
-    assert_eq!(*nu, 6.0);
+    assert_eq!(*nu, 5.0);
     let mut cols = vec![vec![0.0; N], vec![0.0; N]];
     let mut rng = Stream::seed_from_u64(11);
     g[0].fill(&mut rng, &mut cols, N, &mut Vec::new());
@@ -283,11 +285,57 @@ formula = "a + b"
         / (N as f64 - 1.0);
     let ua = m.inputs[0].standard_uncertainty;
     let ub = m.inputs[1].standard_uncertainty;
-    let f = 6.0 / 4.0;
+    let f = 6.0 / 3.0;
     assert!((va / (ua * ua * f) - 1.0).abs() < 0.05, "{va}");
     assert!((vb / (ub * ub * f) - 1.0).abs() < 0.05, "{vb}");
     assert!((cov / (va * vb).sqrt() - m.correlation(0, 1)).abs() < 0.01);
-    let scale = ua;
-    let t = StudentsT::new(m.inputs[0].estimate, scale, 6.0).unwrap();
+    let scale = ua * (6.0f64 / 5.0).sqrt();
+    let t = StudentsT::new(m.inputs[0].estimate, scale, 5.0).unwrap();
     assert!(ks(&mut cols[0], |x| t.cdf(x)) < critical());
+}
+
+#[test]
+fn quantities_observed_together_follow_the_posterior_t() {
+    // N = 2 quantities observed together n = 8 times: multivariate t with
+    // ν = n − N = 6 and scale matrix C/(n(n − N)) (JCGM 101:2008, 6.4.8;
+    // Gelman et al., Bayesian Data Analysis, 3.6; recalled from memory). Its
+    // covariance is ν/(ν − 2) times the scale matrix, i.e. (n − 1)/(n − N − 2)
+    // = 7/4 times the first-order covariance S/n. Derivation: the scale
+    // matrix is (n − 1)S/(n(n − N)), times (n − N)/(n − N − 2).
+    let m = load_str(
+        "[inputs.a]\nobservations = [10.1, 10.4, 9.8, 10.0, 10.3, 9.9, 10.2, 10.5]\n\
+         [inputs.b]\nobservations = [5.2, 5.5, 4.9, 5.0, 5.4, 5.1, 5.2, 5.6]\n\
+         [[observed_together]]\ninputs = [\"a\", \"b\"]\n\
+         [[measurands]]\nname = \"y\"\nformula = \"a + b\"\n",
+        "t.toml",
+    )
+    .unwrap();
+    let gs = groups(&m).unwrap();
+    let g = gs.iter().find(|g| matches!(g, Group::MultiT { .. })).unwrap();
+    let len = 400_000;
+    let mut cols = vec![vec![0.0; len]; 2];
+    let mut scratch = Vec::new();
+    let mut rng = Stream::seed_from_u64(11);
+    g.fill(&mut rng, &mut cols, len, &mut scratch);
+    let var = |v: &[f64]| {
+        let mean = v.iter().sum::<f64>() / v.len() as f64;
+        v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (v.len() - 1) as f64
+    };
+    for (i, col) in cols.iter().enumerate() {
+        let u = m.inputs[i].standard_uncertainty;
+        let ratio = var(col) / (u * u);
+        assert!((ratio - 1.75).abs() < 0.04, "input {i}: {ratio}");
+    }
+    // Too few observations for the posterior: a clear error, no sampling.
+    let few = load_str(
+        "[inputs.a]\nobservations = [1.0, 1.2]\n[inputs.b]\nobservations = [2.0, 2.1]\n\
+         [inputs.c]\nobservations = [3.0, 3.3]\n\
+         [[observed_together]]\ninputs = [\"a\", \"b\", \"c\"]\n\
+         [[measurands]]\nname = \"y\"\nformula = \"a + b + c\"\n",
+        "t.toml",
+    );
+    if let Ok(few) = few {
+        let e = groups(&few).unwrap_err();
+        assert!(e.contains("more observations than quantities"), "{e}");
+    }
 }
