@@ -1,7 +1,7 @@
 //! End-to-end tests of `incertus eval --mc` through the built binary.
 
 mod common;
-use common::incertus;
+use common::{incertus, scratch, write};
 
 const MODEL: &str = "examples/models/mc_five_inputs.toml";
 
@@ -125,4 +125,34 @@ fn bad_monte_carlo_requests_are_errors() {
         out.contains("trials gave a non-finite value and were dropped"),
         "{out}"
     );
+}
+
+#[test]
+fn a_larger_monte_carlo_u_from_t_sampling_is_explained() {
+    // JCGM 101:2008, 6.4.9: a Type A input of n = 4 readings is sampled as a
+    // scaled and shifted t with ν = 3, variance ν/(ν − 2)·u² = 3u², so the
+    // Monte Carlo u of y = x is √3 times the first-order u.
+    let dir = scratch("t_note");
+    let p = write(
+        &dir,
+        "m.toml",
+        "[inputs.x]\nobservations = [10.1, 10.4, 9.8, 10.0]\n[[measurands]]\nname = \"y\"\nformula = \"x\"\n",
+    );
+    let (code, out, err) = incertus(&["eval", p.to_str().unwrap(), "--mc", "200000"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("about 1.73× is expected"), "{out}");
+    assert!(out.contains("ν/(ν − 2)"), "{out}");
+    let (_, json, _) = incertus(&[
+        "eval",
+        p.to_str().unwrap(),
+        "--mc",
+        "20000",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap();
+    let ratio = v["results"][0]["monte_carlo"]["t_sampling_variance_ratio"]
+        .as_f64()
+        .unwrap();
+    assert!((ratio - 3.0).abs() < 1e-12, "{ratio}");
 }

@@ -528,6 +528,22 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
             end(r.value + r.expanded_uncertainty)
         ),
     ];
+    if let Some(ratio) = m.t_sampling_variance_ratio {
+        let observed = m.standard_uncertainty / r.standard_uncertainty;
+        lines.push(if ratio.is_finite() {
+            format!(
+                "  note: u is {}× the first-order u; about {}× is expected because Type A inputs and fit \
+                 parameters are sampled as scaled and shifted t distributions, whose variance is \
+                 ν/(ν − 2)·u² (JCGM 101:2008, 6.4.9)",
+                significant(observed, 3),
+                significant(ratio.sqrt(), 3)
+            )
+        } else {
+            "  note: an input sampled as a t distribution has ν ≤ 2 dof and so no finite variance \
+             (JCGM 101:2008, 6.4.9): the Monte Carlo u does not settle; rely on the coverage interval"
+                .to_string()
+        });
+    }
     if m.non_finite_dropped > 0 {
         lines.push(format!(
             "  {} trials gave a non-finite value and were dropped (--mc-drop-nonfinite)",

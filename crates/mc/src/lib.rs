@@ -113,6 +113,11 @@ pub struct McMeasurand {
     /// Trials inside the tolerance interval, when the measurand has a
     /// specification (the fraction of trials, as JCGM 101:2008 does for coverage).
     pub conformance: Option<incertus_gum::conformity::McConformance>,
+    /// When Type A inputs or fit parameters are sampled as scaled and
+    /// shifted t distributions (JCGM 101:2008, 6.4.9), the ratio of variances
+    /// u²(MC)/u²(first order) this alone leads to, Σ share_i · ν_i/(ν_i − 2)
+    /// over the budget (correlation terms left out); `None` when it is 1.
+    pub t_sampling_variance_ratio: Option<f64>,
 }
 
 /// Adaptive-procedure bookkeeping (JCGM 101:2008, 7.9).
@@ -609,6 +614,11 @@ fn run_in_pool(
             };
         }
     }
+    let t_factors: std::collections::HashMap<usize, f64> = engine
+        .groups
+        .iter()
+        .flat_map(sample::Group::t_variance_factors)
+        .collect();
     let mut results = Vec::with_capacity(m);
     for (j, o) in outs.iter_mut().enumerate() {
         // Conformance by counting, in the measurand's unit (limits included).
@@ -638,6 +648,23 @@ fn run_in_pool(
         }
         let (mean_j, sd_j) = (val(means[j]), sds[j] / f);
         let g = &gum.results[j];
+        let t_sampling_variance_ratio = {
+            let share: f64 = g.budget.iter().map(|b| b.share).sum();
+            let ratio: f64 = g
+                .budget
+                .iter()
+                .map(|b| {
+                    let i = model
+                        .inputs
+                        .iter()
+                        .position(|x| x.name == b.input)
+                        .expect("budget lines name inputs");
+                    let f = t_factors.get(&i).copied().unwrap_or(1.0);
+                    b.share * f
+                })
+                .sum();
+            (share > 0.0 && ratio / share > 1.0 + 1e-9).then(|| ratio / share)
+        };
         let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
         let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
         let d_high = (g.value + g.expanded_uncertainty - sym[1]).abs();
@@ -660,6 +687,7 @@ fn run_in_pool(
             non_finite_dropped: dropped,
             histogram: summary.histogram,
             conformance,
+            t_sampling_variance_ratio,
         });
     }
     let factors: Vec<f64> = model

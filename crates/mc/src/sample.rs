@@ -360,6 +360,9 @@ pub enum Group {
         l: Vec<Vec<f64>>,
         nu: f64,
         chi: ChiSquared<f64>,
+        /// Variance of the draws over the first-order u² of each member:
+        /// ν/(ν − 2) times the scale factor (infinite for ν ≤ 2).
+        variance_factor: f64,
     },
     /// Correlated inputs with other marginals: Gaussian copula.
     Copula {
@@ -397,6 +400,36 @@ pub fn describe(groups: &[Group], model: &Model) -> Vec<String> {
             )),
         })
         .collect()
+}
+
+/// ν/(ν − 2): the variance of a t distribution with ν dof over the square
+/// of its scale (infinite for ν ≤ 2; JCGM 101:2008, 6.4.9.4).
+pub fn t_variance_factor(nu: f64) -> f64 {
+    if nu > 2.0 {
+        nu / (nu - 2.0)
+    } else {
+        f64::INFINITY
+    }
+}
+
+impl Group {
+    /// Each sampled input's variance over its first-order u², for inputs
+    /// drawn from t distributions (Type A inputs, fit parameters, quantities
+    /// observed together); other inputs are left out.
+    pub fn t_variance_factors(&self) -> Vec<(usize, f64)> {
+        match self {
+            Group::Single {
+                input,
+                marginal: Marginal::T { nu, .. },
+            } => vec![(*input, t_variance_factor(*nu))],
+            Group::MultiT {
+                inputs,
+                variance_factor,
+                ..
+            } => inputs.iter().map(|&i| (i, *variance_factor)).collect(),
+            _ => Vec::new(),
+        }
+    }
 }
 
 /// The groups of a model: connected components of non-zero correlations.
@@ -509,7 +542,7 @@ pub fn groups(model: &Model) -> Result<Vec<Group>, String> {
                 .collect::<Option<Vec<usize>>>()
                 .filter(|ns| ns.iter().all(|&n| n == ns[0]))
                 .map(|ns| ns[0]);
-            let (nu, cov) = match (together, n_obs) {
+            let (nu, cov, scale_factor) = match (together, n_obs) {
                 (true, Some(n)) => {
                     if n <= k {
                         return Err(format!(
@@ -525,9 +558,9 @@ pub fn groups(model: &Model) -> Result<Vec<Group>, String> {
                         .iter()
                         .map(|row| row.iter().map(|v| v * f).collect())
                         .collect();
-                    ((n - k) as f64, scaled)
+                    ((n - k) as f64, scaled, f)
                 }
-                _ => (dofs[0].expect("checked"), cov),
+                _ => (dofs[0].expect("checked"), cov, 1.0),
             };
             out.push(Group::MultiT {
                 inputs: members,
@@ -535,6 +568,7 @@ pub fn groups(model: &Model) -> Result<Vec<Group>, String> {
                 l: chol(&cov)?,
                 nu,
                 chi: ChiSquared::new(nu).map_err(|e| e.to_string())?,
+                variance_factor: t_variance_factor(nu) * scale_factor,
             });
         } else {
             let marginals: Vec<Marginal> = members
@@ -593,6 +627,7 @@ impl Group {
                 l,
                 nu,
                 chi,
+                ..
             } => {
                 let k = inputs.len();
                 let z = normals(rng, k + 1, len, scratch);

@@ -311,7 +311,10 @@ fn quantities_observed_together_follow_the_posterior_t() {
     )
     .unwrap();
     let gs = groups(&m).unwrap();
-    let g = gs.iter().find(|g| matches!(g, Group::MultiT { .. })).unwrap();
+    let g = gs
+        .iter()
+        .find(|g| matches!(g, Group::MultiT { .. }))
+        .unwrap();
     let len = 400_000;
     let mut cols = vec![vec![0.0; len]; 2];
     let mut scratch = Vec::new();
