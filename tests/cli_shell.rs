@@ -165,3 +165,43 @@ fn a_specification_in_the_shell() {
     assert_eq!(v["results"][0]["conformity"]["verdict"], "accepted");
     assert_eq!(v["results"][0]["conformity"]["rule"], "guarded acceptance");
 }
+
+#[test]
+fn load_keeps_the_settings_of_the_file() {
+    // A 99 % file stays at 99 % in the shell, and its title and settings are saved again.
+    let dir = scratch("shell_load_settings");
+    std::fs::write(
+        dir.join("m.toml"),
+        "title = \"Ninety-nine\"\ncoverage_probability = 0.99\neffective_dof_rounding = \"exact\"\n\
+         [inputs.x]\nvalue = 2.0\nstandard_uncertainty = 0.1\ndof = 7\n\
+         [[measurands]]\nname = \"y\"\nformula = \"2*x\"\n",
+    )
+    .unwrap();
+    let (code, out) = session(
+        "load m.toml\nbudget y\nsave s.toml\nquit\n",
+        &dir.join("home"),
+        &dir,
+    );
+    assert_eq!(code, 0, "{out}");
+    assert!(out.contains("Ninety-nine"), "{out}");
+    assert!(out.contains("for p = 99 %"), "{out}");
+    let saved = std::fs::read_to_string(dir.join("s.toml")).unwrap();
+    for key in [
+        "title = \"Ninety-nine\"",
+        "coverage_probability = 0.99",
+        "effective_dof_rounding = \"exact\"",
+    ] {
+        assert!(saved.contains(key), "{key} in\n{saved}");
+    }
+    // The saved file gives the same U as the original.
+    let eval = |f: &str| {
+        let o = Command::new(env!("CARGO_BIN_EXE_incertus"))
+            .args(["eval", f, "--format", "json"])
+            .current_dir(&dir)
+            .output()
+            .unwrap();
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        v["results"][0]["expanded_uncertainty"].as_f64().unwrap()
+    };
+    assert_eq!(eval("m.toml"), eval("s.toml"));
+}

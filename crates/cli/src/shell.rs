@@ -53,11 +53,24 @@ struct State {
     results: Vec<(String, String, Option<String>)>,
     /// Specifications of results (JCGM 106:2012): name and model-file keys.
     specs: Vec<(String, Vec<(String, String)>)>,
+    /// Settings of a loaded model file, kept and saved with the session.
+    title: Option<String>,
+    coverage_probability: Option<f64>,
+    effective_dof_rounding: Option<String>,
 }
 
 impl State {
     fn to_toml(&self) -> String {
         let mut t = String::from("# written by incertus shell\n");
+        if let Some(title) = &self.title {
+            t.push_str(&format!("title = {}\n", text(title)));
+        }
+        if let Some(p) = self.coverage_probability {
+            t.push_str(&format!("coverage_probability = {p:?}\n"));
+        }
+        if let Some(r) = &self.effective_dof_rounding {
+            t.push_str(&format!("effective_dof_rounding = {}\n", text(r)));
+        }
         for (name, keys) in &self.inputs {
             t.push_str(&format!("\n[inputs.{name}]\n"));
             for (k, v) in keys {
@@ -611,10 +624,11 @@ impl Shell {
                 let m = &mc.results[j];
                 let w = write(m.value, m.standard_uncertainty, 2);
                 self.say(format!(
-                    "{name}: {} trials, seed {}: {} (± is u); 95 % interval [{}, {}] (probabilistically symmetric), [{}, {}] (shortest); first-order result {}",
+                    "{name}: {} trials, seed {}: {} (± is u); {} % interval [{}, {}] (probabilistically symmetric), [{}, {}] (shortest); first-order result {}",
                     m.trials,
                     m.seed,
                     w.plus_minus,
+                    incertus_gum::rounding::significant(100.0 * m.coverage_probability, 6),
                     incertus_gum::rounding::significant(m.symmetric_interval[0], 6),
                     incertus_gum::rounding::significant(m.symmetric_interval[1], 6),
                     incertus_gum::rounding::significant(m.shortest_interval[0], 6),
@@ -673,7 +687,12 @@ impl Shell {
         for (k, _) in table.iter() {
             if !matches!(
                 k.as_str(),
-                "inputs" | "correlations" | "measurands" | "title" | "coverage_probability"
+                "inputs"
+                    | "correlations"
+                    | "measurands"
+                    | "title"
+                    | "coverage_probability"
+                    | "effective_dof_rounding"
             ) {
                 return self.say(format!(
                     "error: the shell cannot hold `{k}` of {}; use incertus eval",
@@ -681,6 +700,17 @@ impl Shell {
                 ));
             }
         }
+        st.title = table
+            .get("title")
+            .and_then(|v| v.as_str())
+            .map(str::to_string);
+        st.coverage_probability = table
+            .get("coverage_probability")
+            .and_then(|v| v.as_float().or(v.as_integer().map(|i| i as f64)));
+        st.effective_dof_rounding = table
+            .get("effective_dof_rounding")
+            .and_then(|v| v.as_str())
+            .map(str::to_string);
         if let Some(toml::Value::Table(inputs)) = table.get("inputs") {
             for (name, v) in inputs {
                 let toml::Value::Table(keys) = v else {
