@@ -123,3 +123,54 @@ fn the_lab_model_runs_from_the_binary_with_monte_carlo() {
     assert!(out.contains(" D   (in parentheses"), "{out}");
     assert!(out.contains("coverage interval"), "{out}");
 }
+
+#[test]
+fn celsius_points_and_intervals() {
+    // SI Brochure (9th ed.), 2.3.1: t/°C = T/K − 273.15; a difference of
+    // Celsius temperatures is the same number in K. Every reading here is in
+    // °C; c is a correction in K (a difference).
+    let cases: &[(&str, f64)] = &[
+        ("t1 - t2", 20.5 - 4.2), // a difference: an interval
+        ("t2 - t1", 4.2 - 20.5),
+        ("t1 + c", 20.5 + 0.05),             // a point plus an interval
+        ("(t1 + t2)/2", (20.5 + 4.2) / 2.0), // a mean
+        ("w*t1 + (1 - w)*t2", 0.3 * 20.5 + 0.7 * 4.2), // weights summing to 1
+        ("2*(t1 - t2) + t2", 2.0 * (20.5 - 4.2) + 4.2), // a point again
+        ("k*(t1 - t2)", 1.5 * (20.5 - 4.2)), // a scaled difference
+        ("t1", 20.5),
+    ];
+    for (formula, expected) in cases {
+        let text = format!(
+            "[inputs.t1]\nvalue = 20.5\nstandard_uncertainty = 0.1\nunit = \"degC\"\n\
+             [inputs.t2]\nvalue = 4.2\nstandard_uncertainty = 0.1\nunit = \"degC\"\n\
+             [inputs.c]\nvalue = 0.05\nstandard_uncertainty = 0.01\nunit = \"K\"\n\
+             [inputs.w]\nvalue = 0.3\nstandard_uncertainty = 0.01\n\
+             [inputs.k]\nvalue = 1.5\n\
+             [[measurands]]\nname = \"y\"\nformula = \"{formula}\"\nunit = \"degC\"\n"
+        );
+        let model =
+            incertus_gum::load_str(&text, "t.toml").unwrap_or_else(|e| panic!("{formula}: {e}"));
+        let r = incertus_gum::propagate(&model, &Default::default()).unwrap();
+        assert!(
+            (r.results[0].value - expected).abs() < 1e-9,
+            "{formula}: {} °C, expected {expected}",
+            r.results[0].value
+        );
+    }
+    // Neither a point nor an interval: refused with the formula located.
+    for formula in ["t1 + t2", "2*t1", "t1*t2/t2 + t2", "w*t1 + w*t2"] {
+        let text = format!(
+            "[inputs.t1]\nvalue = 20.5\nstandard_uncertainty = 0.1\nunit = \"degC\"\n\
+             [inputs.t2]\nvalue = 4.2\nstandard_uncertainty = 0.1\nunit = \"degC\"\n\
+             [inputs.w]\nvalue = 0.3\nstandard_uncertainty = 0.01\n\
+             [[measurands]]\nname = \"y\"\nformula = \"{formula}\"\nunit = \"degC\"\n"
+        );
+        let e = incertus_gum::load_str(&text, "t.toml")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("scale with an offset") && e.contains("formula"),
+            "{formula}: {e}"
+        );
+    }
+}

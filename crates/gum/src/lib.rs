@@ -41,6 +41,7 @@ mod load;
 pub mod matrix;
 pub mod model;
 pub mod number;
+pub mod offsets;
 pub mod propagate;
 pub mod rounding;
 pub mod typea;

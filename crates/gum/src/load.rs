@@ -949,6 +949,7 @@ impl Loader<'_> {
                 expected_value,
                 expected_standard_uncertainty,
                 specification,
+                interval: false,
                 line: doc.line(&item.span()),
             });
             // Names in the formula are checked once all measurands are known.
@@ -1421,6 +1422,7 @@ impl Loader<'_> {
         items: &DeArray,
     ) -> Result<()> {
         use incertus_units::Dimension;
+        let mut expanded: Vec<(String, incertus_expr::Expr)> = Vec::new();
         let mut known: Vec<(String, Dimension)> = inputs
             .iter()
             .map(|i| {
@@ -1477,6 +1479,28 @@ impl Loader<'_> {
                     ));
                 }
             }
+            let full = crate::propagate::substitute(&m.formula, &expanded);
+            if m.unit_si.as_ref().is_some_and(|u| u.offset != 0.0) {
+                match crate::offsets::classify(&full, inputs) {
+                    crate::offsets::OnScale::Point => {}
+                    crate::offsets::OnScale::Interval => m.interval = true,
+                    crate::offsets::OnScale::Neither(message) => {
+                        let e = incertus_expr::FormulaError::new(
+                            incertus_expr::ErrorKind::Domain,
+                            message,
+                            m.formula.span,
+                        );
+                        return Err(self.formula_error(
+                            &r,
+                            "formula",
+                            r.value_span_of("formula"),
+                            &m.formula_text,
+                            &e,
+                        ));
+                    }
+                }
+            }
+            expanded.push((m.name.clone(), full));
             if m.unit_si.is_none() && !d.is_one() {
                 // No unit stated: the result is reported in its coherent SI
                 // unit (SI Brochure, 9th ed., 2.3.4), named so everywhere.

@@ -197,9 +197,14 @@ impl Measurand {
         unit_factor(self.unit_si.as_ref())
     }
 
-    /// A value in coherent SI, in the measurand's unit.
+    /// A value in coherent SI, in the measurand's unit (an interval on an
+    /// offset scale by the factor alone).
     pub fn shown_value(&self, v: f64) -> f64 {
-        shown_value(self.unit_si.as_ref(), v)
+        if self.interval {
+            v / self.unit_factor()
+        } else {
+            shown_value(self.unit_si.as_ref(), v)
+        }
     }
 }
 
@@ -231,6 +236,11 @@ pub struct Measurand {
     pub expected_standard_uncertainty: Option<Stated>,
     /// Tolerance limits and decision rule (JCGM 106:2012), in `unit`.
     pub specification: Option<crate::conformity::Specification>,
+    /// On a scale with an offset (°C): whether the result is a difference
+    /// of points (an interval), converted by the unit's factor alone,
+    /// rather than a point on the scale (SI Brochure, 9th ed., 2.3.1: a
+    /// Celsius temperature difference is the same number in K).
+    pub interval: bool,
     pub line: usize,
 }
 
