@@ -156,3 +156,35 @@ fn a_larger_monte_carlo_u_from_t_sampling_is_explained() {
         .unwrap();
     assert!((ratio - 3.0).abs() < 1e-12, "{ratio}");
 }
+
+#[test]
+fn monte_carlo_near_the_top_of_the_range() {
+    // common practice, no published source: trials near 1e307 give finite
+    // moments (summed in units of a power of two near u), and a validation
+    // is never "passed" on a figure that is not a number.
+    let dir = scratch("mc_big");
+    let p = write(
+        &dir,
+        "m.toml",
+        "[inputs.x]\nvalue = 1.5e307\nstandard_uncertainty = 1e306\n\
+         [inputs.z]\nvalue = 1.2e307\nstandard_uncertainty = 1e306\n\
+         [[measurands]]\nname = \"y\"\nformula = \"x + z\"\n",
+    );
+    let (code, out, err) = incertus(&[
+        "eval",
+        p.to_str().unwrap(),
+        "--mc",
+        "50000",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let m = &v["results"][0]["monte_carlo"];
+    let (y, u) = (
+        m["value"].as_f64().unwrap(),
+        m["standard_uncertainty"].as_f64().unwrap(),
+    );
+    assert!((y / 2.7e307 - 1.0).abs() < 1e-3, "{y}");
+    assert!((u / (2f64.sqrt() * 1e306) - 1.0).abs() < 0.02, "{u}");
+}

@@ -60,6 +60,14 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
             "give --exclude-reason with --exclude: every exclusion is recorded with its reason",
         ));
     }
+    if a.exclude_reason
+        .as_deref()
+        .is_some_and(|r| r.trim().is_empty())
+    {
+        return Err(Failure::input(
+            "--exclude-reason is blank: write why the points are excluded (the audit trail records it)",
+        ));
+    }
     let mut names = vec![a.x.as_str(), a.y.as_str()];
     if let Some(u) = &a.y_uncertainty {
         names.push(u);

@@ -365,6 +365,15 @@ pub fn read_problem(path: &Path) -> Result<Problem, String> {
     if !f.series.exclude.is_empty() && f.series.exclude_reason.is_none() {
         return Err(format!("{file}: [series] exclude needs exclude_reason"));
     }
+    if f.series
+        .exclude_reason
+        .as_deref()
+        .is_some_and(|r| r.trim().is_empty())
+    {
+        return Err(format!(
+            "{file}: [series] exclude_reason is blank: write why the points are excluded"
+        ));
+    }
     Ok(Problem {
         title: f.title.unwrap_or_else(|| "Dipole moment".into()),
         w2: cols.columns[0].clone(),

@@ -184,6 +184,15 @@ pub fn fit(req: &FitRequest) -> Result<FitResult, FitError> {
     if req.exclude.is_empty() {
         return Ok(all);
     }
+    if req
+        .exclude_reason
+        .as_deref()
+        .is_none_or(|r| r.trim().is_empty())
+    {
+        return Err(FitError(
+            "an exclusion needs a reason that is not blank: the audit trail records it".into(),
+        ));
+    }
     let rows: Vec<usize> = req
         .rows
         .iter()

@@ -417,24 +417,30 @@ fn risk_guard_band(
     if u == 0.0 {
         return Some(0.0);
     }
-    // The p_c that the acceptance limit must have.
-    let target = match rule {
-        Rule::GuardedRejection => alpha,
-        _ => 1.0 - alpha,
+    // Whether a measured value y may be accepted. Guarded acceptance: the
+    // consumer's risk Pr(outside) ≤ α; guarded rejection: reject only when
+    // p_c < α, i.e. accept while Pr(inside) ≥ α. Both probabilities are
+    // computed as tails, accurate when small, so that α down to 1e-300 is
+    // met rather than saturating where 1 − α rounds to 1.
+    let acceptable = |y: f64| {
+        let b = Belief { value: y, ..belief };
+        match rule {
+            Rule::GuardedRejection => b.probability_inside(lo, hi) >= alpha,
+            _ => b.probability_outside(lo, hi) <= alpha,
+        }
     };
-    match (lo, hi) {
+    let w = match (lo, hi) {
         (Some(l), Some(h)) => {
-            // p_c(y) is symmetric about the midpoint and falls away from it.
+            // Acceptability is symmetric about the midpoint and is lost away from it.
             let mid = 0.5 * (l + h);
-            let pc = |y: f64| Belief { value: y, ..belief }.probability_inside(lo, hi);
-            if pc(mid) < target {
+            if !acceptable(mid) {
                 return None;
             }
             let mut a = mid;
             let mut step = (h - mid).max(u);
             let mut b = mid + step;
             let mut n = 0;
-            while pc(b) >= target && n < 1100 {
+            while acceptable(b) && n < 1100 {
                 a = b;
                 step *= 2.0;
                 b = mid + step;
@@ -445,27 +451,48 @@ fn risk_guard_band(
                 if m <= a || m >= b {
                     break;
                 }
-                if pc(m) >= target {
+                if acceptable(m) {
                     a = m;
                 } else {
                     b = m;
                 }
             }
             let upper_acceptance = a;
-            Some(match rule {
+            match rule {
                 Rule::GuardedRejection => upper_acceptance - h,
                 _ => h - upper_acceptance,
-            })
+            }
         }
         _ => {
-            // One limit: p_c at the acceptance limit is F(±w/u).
-            let z = match belief.dof {
-                Some(nu) => crate::coverage::student_t_quantile(1.0 - alpha, nu),
-                None => crate::coverage::normal_quantile(1.0 - alpha),
+            // One limit: the risk at the acceptance limit is the tail beyond ±w/u;
+            // the quantile of the lower tail α is accurate for tiny α.
+            let z = -match belief.dof {
+                Some(nu) => crate::coverage::student_t_quantile(alpha, nu),
+                None => crate::coverage::normal_quantile(alpha),
             };
-            Some(z * u)
+            if !z.is_finite() {
+                return None;
+            }
+            z * u
         }
-    }
+    };
+    // Never claim a risk the guard band does not give.
+    let at_limit = match (lo, hi, rule) {
+        (_, Some(h), Rule::GuardedRejection) => h + w,
+        (_, Some(h), _) => h - w,
+        (Some(l), None, Rule::GuardedRejection) => l - w,
+        (Some(l), None, _) => l + w,
+        (None, None, _) => return Some(w),
+    };
+    let b = Belief {
+        value: at_limit,
+        ..belief
+    };
+    let met = match rule {
+        Rule::GuardedRejection => b.probability_inside(lo, hi) >= alpha * (1.0 - 1e-6),
+        _ => b.probability_outside(lo, hi) <= alpha * (1.0 + 1e-6),
+    };
+    (met && w.is_finite()).then_some(w)
 }
 
 /// Adaptive Gauss-Kronrod (7-15) quadrature of `f` on [a, b].

@@ -21,8 +21,27 @@ fn rational(v: f64) -> Option<(i32, i32)> {
     })
 }
 
+/// The largest exponent of a base unit a dimension may have; beyond it
+/// (`(x^65536)^65536`) the exponents would wrap around, and no physical
+/// quantity comes near it.
+pub const MAX_EXPONENT: i32 = 1000;
+
 /// The dimension of `e`, given the dimensions of its names.
 pub fn dimension(e: &Expr, of: &dyn Fn(&str) -> Dimension) -> Result<Dimension, FormulaError> {
+    let d = dimension_inner(e, of)?;
+    if d.0.iter().any(|x| x.abs() > MAX_EXPONENT) {
+        return Err(err(
+            e,
+            format!(
+                "this part has a dimension with an exponent beyond ±{MAX_EXPONENT} ({d}); no \
+                 quantity has such a dimension"
+            ),
+        ));
+    }
+    Ok(d)
+}
+
+fn dimension_inner(e: &Expr, of: &dyn Fn(&str) -> Dimension) -> Result<Dimension, FormulaError> {
     Ok(match &e.kind {
         Kind::Num(_) | Kind::Pi => Dimension::ONE,
         Kind::Var(n) => of(n),

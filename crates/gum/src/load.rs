@@ -1199,7 +1199,17 @@ impl Loader<'_> {
                     v.iter().map(|x| *x as usize).collect()
                 }
             };
-            let exclude_reason = r.string("exclude_reason")?.map(|x| x.0);
+            let reason = r.string("exclude_reason")?;
+            if let Some((text, span)) = &reason {
+                if text.trim().is_empty() {
+                    return Err(r.err(
+                        span.clone(),
+                        "exclude_reason",
+                        "the reason is blank: write why the points are excluded (the audit trail records it)",
+                    ));
+                }
+            }
+            let exclude_reason = reason.map(|x| x.0);
             if !exclude.is_empty() && exclude_reason.is_none() {
                 return Err(r.err(
                     r.span_of("exclude"),

@@ -359,6 +359,31 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         }
         let total_scaled = (sum_sq + corr_sum_scaled).max(0.0);
         let uc = s * total_scaled.sqrt();
+        if !uc.is_finite() {
+            return Err(perr(
+                format!(
+                    "the combined standard uncertainty of `{}` is not a finite number: a contribution \
+                     c·u(x) exceeds the range of double precision (about 1.8e308); express the model in \
+                     units that keep its values well inside that range",
+                    m.name
+                ),
+                None,
+            )
+            .at(m.line));
+        }
+        let tiny = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
+        if tiny(y) || tiny(uc) || used.iter().any(|&i| tiny(c[i] * u[i])) {
+            return Err(perr(
+                format!(
+                    "the result of `{}` or its uncertainty lies below the normal range of double \
+                     precision (about 2.2e-308), where digits are lost to underflow; express the model \
+                     in units that keep its values well inside that range",
+                    m.name
+                ),
+                None,
+            )
+            .at(m.line));
+        }
         let share = |t: f64| {
             if total_scaled > 0.0 {
                 t / total_scaled

@@ -378,3 +378,52 @@ fn global_risks_agree_with_a_simulation_of_the_process() {
         assert!((f - p).abs() < 4.0 * sd, "{f} vs {p} (sd {sd})");
     }
 }
+
+#[test]
+fn tiny_largest_risks_are_met_not_saturated() {
+    // JCGM 106:2012, 8.3.3 (guard band from a specific risk); the normal
+    // tail Φ(−z) = erfc(z/√2)/2 in closed form (libm's erfc). A target of
+    // 1e-20 must not stop where 1 − α rounds to 1 (z ≈ 8.29).
+    for alpha in [1e-3, 1e-9, 1e-16, 1e-20, 1e-40, 1e-100] {
+        // One upper limit, guarded acceptance.
+        let s = spec(
+            None,
+            Some(10.0),
+            Rule::GuardedAcceptance,
+            Guard::SpecificRisk(alpha),
+        );
+        let b = belief(5.0, 0.1, None);
+        let r = assess(&s, b, 0.2, 2.0, 0.95, None).unwrap();
+        let w = r.guard_band.expect("a guard band exists");
+        let tail = 0.5 * libm::erfc(w / 0.1 / std::f64::consts::SQRT_2);
+        assert!(
+            (tail / alpha - 1.0).abs() < 1e-6,
+            "α {alpha}: w/u {} gives {tail}",
+            w / 0.1
+        );
+        // Two limits far apart: the same band at each end.
+        let s2 = spec(
+            Some(0.0),
+            Some(10.0),
+            Rule::GuardedAcceptance,
+            Guard::SpecificRisk(alpha),
+        );
+        let r2 = assess(&s2, b, 0.2, 2.0, 0.95, None).unwrap();
+        let w2 = r2.guard_band.expect("a guard band exists");
+        assert!((w2 / w - 1.0).abs() < 1e-6, "α {alpha}: {w2} vs {w}");
+    }
+    // A target no band can meet (the tolerance interval is narrower than
+    // the spread): no guard band, nothing accepted, and no risk claimed.
+    let s = spec(
+        Some(4.99),
+        Some(5.01),
+        Rule::GuardedAcceptance,
+        Guard::SpecificRisk(1e-30),
+    );
+    let r = assess(&s, belief(5.0, 0.1, None), 0.2, 2.0, 0.95, None).unwrap();
+    assert!(
+        r.guard_band.is_none() && r.acceptance_interval.is_none(),
+        "{r:?}"
+    );
+    assert_eq!(r.verdict, "rejected");
+}

@@ -276,3 +276,21 @@ proptest! {
         prop_assert!((r.results[0].value - (a[0] + 2.0 * a[1] + 3.0 * a[2])).abs() < 1e-12);
     }
 }
+
+#[test]
+fn type_a_at_the_ends_of_the_range() {
+    // JCGM 100:2008, 4.2.2 and 4.2.3: s and s/√n of observations from 1e-300
+    // to 1e300 (scaled by a power of two, so the squares never leave the
+    // f64 range); the spread is 10 % of the values at every scale.
+    for e in [-300, -200, -160, 0, 160, 200, 300, 307] {
+        let scale = 10f64.powi(e);
+        let q: Vec<f64> = [1.1, 1.5, 0.9, 1.3].iter().map(|x| x * scale).collect();
+        let s = typea::std_dev(&q);
+        // the sample standard deviation of (1.1, 1.5, 0.9, 1.3): √(0.2/3)
+        let want = (0.2f64 / 3.0).sqrt() * scale;
+        assert!((s / want - 1.0).abs() < 1e-12, "1e{e}: {s} vs {want}");
+        assert!((typea::mean(&q) / (1.2 * scale) - 1.0).abs() < 1e-14);
+        let r = typea::correlation(&q, &q);
+        assert!((r - 1.0).abs() < 1e-12, "1e{e}: {r}");
+    }
+}

@@ -194,6 +194,20 @@ struct Engine<'a> {
     tape: Tape,
     groups: Vec<Group>,
     seed: u64,
+    /// A power of two per measurand near its first-order u (in coherent
+    /// SI): co-moments are summed in these units, so trials near 1e307 or
+    /// 1e-307 neither overflow nor underflow.
+    scales: Vec<f64>,
+}
+
+/// A power of two near |x| (1 for 0 or a value that is not finite).
+fn power_of_two_near(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        1.0
+    } else {
+        // Kept within 2^±1000 so that its reciprocal is finite too.
+        2f64.powi((x.abs().log2().floor() as i32).clamp(-1000, 1000))
+    }
 }
 
 /// Counts, means and co-moments of the measurands over a set of trials
@@ -203,6 +217,8 @@ struct Engine<'a> {
 #[derive(Clone, Debug)]
 struct Moments {
     n: f64,
+    /// The scale of each measurand: `co` holds Σ (Δy_a/s_a)(Δy_b/s_b).
+    scale: Vec<f64>,
     mean: Vec<f64>,
     /// Σ (y_a − ȳ_a)(y_b − ȳ_b), a full m × m matrix.
     co: Vec<Vec<f64>>,
@@ -211,9 +227,11 @@ struct Moments {
 }
 
 impl Moments {
-    fn empty(m: usize) -> Moments {
+    fn empty(scale: &[f64]) -> Moments {
+        let m = scale.len();
         Moments {
             n: 0.0,
+            scale: scale.to_vec(),
             mean: vec![0.0; m],
             co: vec![vec![0.0; m]; m],
             min: vec![f64::INFINITY; m],
@@ -224,14 +242,14 @@ impl Moments {
     /// Two-pass moments of one block (the values are in cache), over the
     /// trials where every measurand is finite, and the least and greatest
     /// value of each measurand.
-    fn of_block(outs: &[&mut [f64]], all_finite: bool) -> Moments {
+    fn of_block(outs: &[&mut [f64]], all_finite: bool, scale: &[f64]) -> Moments {
         let m = outs.len();
         let len = outs[0].len();
-        let mut r = Moments::empty(m);
+        let mut r = Moments::empty(scale);
         if all_finite {
             r.n = len as f64;
             for (a, o) in outs.iter().enumerate() {
-                r.mean[a] = stats::shifted_mean(o);
+                r.mean[a] = stats::shifted_mean(o, scale[a]);
                 let (lo, hi) = o
                     .iter()
                     .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &x| {
@@ -243,7 +261,7 @@ impl Moments {
             for a in 0..m {
                 for b in 0..=a {
                     let (ma, mb) = (r.mean[a], r.mean[b]);
-                    let c = stats::co_moment(outs[a], outs[b], ma, mb);
+                    let c = stats::co_moment(outs[a], outs[b], ma, mb, scale[a], scale[b]);
                     r.co[a][b] = c;
                     r.co[b][a] = c;
                 }
@@ -257,7 +275,11 @@ impl Moments {
         }
         r.n = n as f64;
         for (a, o) in outs.iter().enumerate() {
-            r.mean[a] = stats::sum((0..len).filter(|&i| ok(i)).map(|i| o[i])) / r.n;
+            let x0 = (0..len).find(|&i| ok(i)).map_or(0.0, |i| o[i]);
+            r.mean[a] = x0
+                + scale[a]
+                    * (stats::sum((0..len).filter(|&i| ok(i)).map(|i| (o[i] - x0) / scale[a]))
+                        / r.n);
             for i in (0..len).filter(|&i| ok(i)) {
                 r.min[a] = r.min[a].min(o[i]);
                 r.max[a] = r.max[a].max(o[i]);
@@ -267,10 +289,11 @@ impl Moments {
             for b in 0..=a {
                 let (oa, ob) = (&outs[a], &outs[b]);
                 let (ma, mb) = (r.mean[a], r.mean[b]);
+                let (sa, sb) = (scale[a], scale[b]);
                 let c = stats::sum(
                     (0..len)
                         .filter(|&i| ok(i))
-                        .map(|i| (oa[i] - ma) * (ob[i] - mb)),
+                        .map(|i| ((oa[i] - ma) / sa) * ((ob[i] - mb) / sb)),
                 );
                 r.co[a][b] = c;
                 r.co[b][a] = c;
@@ -289,12 +312,13 @@ impl Moments {
         let n = self.n + o.n;
         let m = self.mean.len();
         let d: Vec<f64> = (0..m).map(|a| o.mean[a] - self.mean[a]).collect();
-        let mean = (0..m).map(|a| self.mean[a] + d[a] * o.n / n).collect();
+        let mean = (0..m).map(|a| self.mean[a] + d[a] * (o.n / n)).collect();
         let f = self.n * o.n / n;
+        let sc = &self.scale;
         let co = (0..m)
             .map(|a| {
                 (0..m)
-                    .map(|b| self.co[a][b] + o.co[a][b] + d[a] * d[b] * f)
+                    .map(|b| self.co[a][b] + o.co[a][b] + (d[a] / sc[a]) * (d[b] / sc[b]) * f)
                     .collect()
             })
             .collect();
@@ -302,6 +326,7 @@ impl Moments {
         let max = (0..m).map(|a| self.max[a].max(o.max[a])).collect();
         Moments {
             n,
+            scale: self.scale.clone(),
             mean,
             co,
             min,
@@ -385,7 +410,7 @@ impl Engine<'_> {
                                 measurand: j,
                                 inputs: cols.iter().map(|c| c[i]).collect(),
                             });
-                        let moments = Moments::of_block(&slices, report.all_finite());
+                        let moments = Moments::of_block(&slices, report.all_finite(), &self.scales);
                         (report.non_finite, bad, moments)
                     })
                     .collect::<Vec<_>>()
@@ -453,11 +478,25 @@ fn run_in_pool(
         .collect();
     let tape = Tape::compile(&formulas, &names).map_err(|e| McError(e.message))?;
     let groups = groups(model).map_err(McError)?;
+    let scales: Vec<f64> = gum
+        .results
+        .iter()
+        .zip(&model.measurands)
+        .map(|(r, meas)| {
+            let u = r.standard_uncertainty * meas.unit_factor();
+            if u > 0.0 && u.is_finite() {
+                power_of_two_near(u)
+            } else {
+                power_of_two_near(r.value * meas.unit_factor())
+            }
+        })
+        .collect();
     let engine = Engine {
         model,
         tape,
         groups,
         seed: settings.seed,
+        scales,
     };
     let m = model.measurands.len();
     let cap = limit(settings);
@@ -594,17 +633,26 @@ fn run_in_pool(
     // Moments and covariance from the blocks, combined in order.
     let total_moments = block_moments
         .iter()
-        .fold(Moments::empty(m), |acc, b| acc.combine(b));
+        .fold(Moments::empty(&engine.scales), |acc, b| acc.combine(b));
     let dof = (total_moments.n - 1.0).max(1.0);
     let means = total_moments.mean.clone();
+    let sc = &engine.scales;
     let sds: Vec<f64> = (0..m)
-        .map(|a| (total_moments.co[a][a] / dof).sqrt())
+        .map(|a| sc[a] * (total_moments.co[a][a] / dof).sqrt())
         .collect();
+    if let Some(j) = (0..m).find(|&j| !(means[j].is_finite() && sds[j].is_finite())) {
+        return Err(McError(format!(
+            "the mean or the standard deviation of the trials of `{}` is not a finite number \
+             (values near the limits of double precision, about 1.8e308); express the model in \
+             units that keep its values well inside that range",
+            model.measurands[j].name
+        )));
+    }
     let mut cov = vec![vec![0.0; m]; m];
     let mut corr = vec![vec![0.0; m]; m];
     for a in 0..m {
         for b in 0..m {
-            cov[a][b] = total_moments.co[a][b] / dof;
+            cov[a][b] = total_moments.co[a][b] / dof * sc[a] * sc[b];
             corr[a][b] = if a == b {
                 1.0
             } else if sds[a] > 0.0 && sds[b] > 0.0 {
@@ -682,7 +730,12 @@ fn run_in_pool(
                 ndig: settings.ndig,
                 d_low,
                 d_high,
-                passed: d_low <= delta && d_high <= delta,
+                // Never passed on a figure that is not a number.
+                passed: d_low <= delta
+                    && d_high <= delta
+                    && delta.is_finite()
+                    && d_low.is_finite()
+                    && d_high.is_finite(),
             },
             non_finite_dropped: dropped,
             histogram: summary.histogram,

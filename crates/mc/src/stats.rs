@@ -16,33 +16,37 @@ pub use incertus_gum::typea::sum;
 /// interleaved accumulators: the shift removes any large offset, so the
 /// plain sums of values of the size of the spread lose nothing that
 /// matters, and the loop runs at the speed of the memory.
-pub fn shifted_mean(v: &[f64]) -> f64 {
+pub fn shifted_mean(v: &[f64], scale: f64) -> f64 {
     let Some(&x0) = v.first() else { return 0.0 };
+    // `scale` is a power of two within 2^±1000: its reciprocal is exact.
+    let inv = 1.0 / scale;
     let mut acc = [0.0f64; 4];
     let chunks = v.chunks_exact(4);
-    let tail: f64 = chunks.remainder().iter().map(|x| x - x0).sum();
+    let tail: f64 = chunks.remainder().iter().map(|x| (x - x0) * inv).sum();
     for c in chunks {
         for k in 0..4 {
-            acc[k] += c[k] - x0;
+            acc[k] += (c[k] - x0) * inv;
         }
     }
-    x0 + (acc[0] + acc[1] + acc[2] + acc[3] + tail) / v.len() as f64
+    x0 + scale * ((acc[0] + acc[1] + acc[2] + acc[3] + tail) / v.len() as f64)
 }
 
 /// Σ (a_i − ma)(b_i − mb) over a block, in four interleaved accumulators
 /// (the deviations are already centred, so plain sums are accurate).
-pub fn co_moment(a: &[f64], b: &[f64], ma: f64, mb: f64) -> f64 {
+pub fn co_moment(a: &[f64], b: &[f64], ma: f64, mb: f64, sa: f64, sb: f64) -> f64 {
+    // Powers of two within 2^±1000: the reciprocals are exact.
+    let (ia, ib) = (1.0 / sa, 1.0 / sb);
     let mut acc = [0.0f64; 4];
     let (ca, cb) = (a.chunks_exact(4), b.chunks_exact(4));
     let tail: f64 = ca
         .remainder()
         .iter()
         .zip(cb.remainder())
-        .map(|(x, y)| (x - ma) * (y - mb))
+        .map(|(x, y)| ((x - ma) * ia) * ((y - mb) * ib))
         .sum();
     for (x, y) in ca.zip(cb) {
         for k in 0..4 {
-            acc[k] += (x[k] - ma) * (y[k] - mb);
+            acc[k] += ((x[k] - ma) * ia) * ((y[k] - mb) * ib);
         }
     }
     acc[0] + acc[1] + acc[2] + acc[3] + tail
@@ -69,7 +73,15 @@ pub fn std_dev(v: &[f64], mean: f64) -> f64 {
     if v.len() < 2 {
         return 0.0;
     }
-    (chunked_sum(v, |x| (x - mean) * (x - mean)) / (v.len() - 1) as f64).sqrt()
+    // Deviations divided by a power of two near the largest, so that
+    // values near 1e307 do not overflow when squared.
+    let big = v.iter().fold(0.0f64, |m, x| m.max((x - mean).abs()));
+    let s = if big > 0.0 && big.is_finite() {
+        2f64.powi(big.log2().floor() as i32)
+    } else {
+        1.0
+    };
+    s * (chunked_sum(v, |x| ((x - mean) / s) * ((x - mean) / s)) / (v.len() - 1) as f64).sqrt()
 }
 
 /// Covariance of two sets of trials taken together.

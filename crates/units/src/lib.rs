@@ -43,7 +43,8 @@ impl Dimension {
     pub fn pow(self, n: i32, d: i32) -> Option<Dimension> {
         let mut out = [0; 7];
         for (o, x) in out.iter_mut().zip(self.0) {
-            let num = x * n;
+            // An exponent beyond the i32 range is no dimension at all.
+            let num = x.checked_mul(n)?;
             if num % d != 0 {
                 return None;
             }
@@ -60,7 +61,7 @@ impl std::ops::Mul for Dimension {
     fn mul(self, o: Dimension) -> Dimension {
         let mut d = self.0;
         for (x, y) in d.iter_mut().zip(o.0) {
-            *x += y;
+            *x = x.saturating_add(y);
         }
         Dimension(d)
     }
@@ -72,7 +73,7 @@ impl std::ops::Div for Dimension {
     fn div(self, o: Dimension) -> Dimension {
         let mut d = self.0;
         for (x, y) in d.iter_mut().zip(o.0) {
-            *x -= y;
+            *x = x.saturating_sub(y);
         }
         Dimension(d)
     }
