@@ -27,7 +27,7 @@ fn demo_prints_a_budget_the_moment_in_debye_and_writes_a_report() {
         "uncertainty budget of mu",
         "a_eps",
         "result   mu = ",
-        " D   (in parentheses",
+        " D   (",
         "validation of the first-order result",
         "report written to incertus-demo-report",
     ] {

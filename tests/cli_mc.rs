@@ -188,3 +188,91 @@ fn monte_carlo_near_the_top_of_the_range() {
     assert!((y / 2.7e307 - 1.0).abs() < 1e-3, "{y}");
     assert!((u / (2f64.sqrt() * 1e306) - 1.0).abs() < 0.02, "{u}");
 }
+
+#[test]
+fn a_result_not_validated_is_replaced_by_the_monte_carlo_one_everywhere() {
+    // JCGM 101:2008, 8.2: when the first-order result is not validated, the
+    // Monte Carlo result is the one reported, and the conformity decision
+    // (JCGM 106:2012) rests on it.
+    let dir = scratch("reported");
+    let p = write(
+        &dir,
+        "m.toml",
+        "[inputs.a]\nvalue = 2\nstandard_uncertainty = 0.1\n[inputs.b]\nvalue = 2\nstandard_uncertainty = 0.1\n\
+         [[measurands]]\nname = \"d\"\nformula = \"abs(a - b)\"\n[measurands.specification]\nupper = 0.2\n",
+    );
+    let f = p.to_str().unwrap();
+    let (code, out, err) = incertus(&["eval", f, "--mc", "100000"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(
+        out.contains("REPORTED RESULT, by propagation of distributions"),
+        "{out}"
+    );
+    assert!(
+        out.contains("first-order result (not validated, not the reported result)"),
+        "{out}"
+    );
+    assert!(
+        out.contains("Result and conformance probability by propagation of distributions"),
+        "{out}"
+    );
+    let (_, json, _) = incertus(&["eval", f, "--mc", "100000", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap();
+    let r = &v["results"][0];
+    assert_eq!(r["reported"]["method"], "monte_carlo");
+    // |a − b| of two N(2, 0.1²): the half-normal with σ = 0.1√2; Pr(≤ 0.2) = erf(1) = 0.8427.
+    let pc = r["conformity"]["conformance_probability"].as_f64().unwrap();
+    assert!((pc - 0.842_700_79).abs() < 0.005, "{pc}"); // erf(1), Abramowitz and Stegun table 7.1
+    let mean = r["reported"]["value"].as_f64().unwrap();
+    // E|a − b| = σ√(2/π) with σ = 0.1√2: 0.1128
+    assert!(
+        (mean - 0.2 / std::f64::consts::PI.sqrt()).abs() < 0.002,
+        "{mean}"
+    );
+    // A validated result stays the first-order one.
+    let q = write(
+        &dir,
+        "ok.toml",
+        "[inputs.a]\nvalue = 2\nstandard_uncertainty = 0.1\n[[measurands]]\nname = \"y\"\nformula = \"3*a\"\n",
+    );
+    let (_, json, _) = incertus(&[
+        "eval",
+        q.to_str().unwrap(),
+        "--mc",
+        "200000",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap();
+    assert_eq!(v["results"][0]["reported"]["method"], "first_order");
+}
+
+#[test]
+fn a_disagreeing_monte_carlo_conformance_probability_is_never_silent() {
+    // y = x² with x = 10 ± 0.5 is skewed: Pr(y ≤ 120) = Φ((√120 − 10)/0.5) =
+    // Φ(1.9089) = 0.9719 (the exact distribution of x² for x > 0), against
+    // the first-order Φ(2) = 0.9772; with ndig = 1 the first-order result
+    // still passes validation, so the first-order p_c is reported, and the
+    // disagreement must be stated beside it.
+    let dir = scratch("pc_disagree");
+    let p = write(
+        &dir,
+        "m.toml",
+        "[inputs.x]\nvalue = 10\nstandard_uncertainty = 0.5\n[[measurands]]\nname = \"y\"\nformula = \"x^2\"\n\
+         [measurands.specification]\nupper = 120\n",
+    );
+    let (code, out, err) = incertus(&[
+        "eval",
+        p.to_str().unwrap(),
+        "--mc",
+        "1000000",
+        "--ndig",
+        "1",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("differs from the first-order"), "{out}");
+    assert!(
+        out.contains("which disagrees with this first-order figure"),
+        "{out}"
+    );
+}

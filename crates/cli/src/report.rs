@@ -203,6 +203,42 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         significant(r.expanded_uncertainty, 5)
     ));
     lines.push(String::new());
+    let monte_carlo = r.reported.method == incertus_gum::Method::MonteCarlo;
+    if monte_carlo {
+        // JCGM 101:2008, 8.2: the first-order result was not validated, so
+        // the Monte Carlo result is the reported one.
+        let rep = &r.reported;
+        let w = write(rep.value, rep.standard_uncertainty, style.digits);
+        let like = write(rep.value, rep.standard_uncertainty, style.digits + 1);
+        let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
+        lines.push(format!(
+            "result   {name} = {}{unit}   (REPORTED RESULT, by propagation of distributions, JCGM 101:2008; in parentheses: u in units of the last digits)",
+            w.concise
+        ));
+        lines.push(format!(
+            "         {} coverage interval [{}, {}]{unit}   (probabilistically symmetric, JCGM 101:2008, 7.7)",
+            percent(rep.coverage_probability),
+            end(rep.coverage_interval[0]),
+            end(rep.coverage_interval[1])
+        ));
+        lines.push(format!(
+            "         reported by Monte Carlo because {}",
+            rep.why
+        ));
+        lines.push(format!(
+            "         rounded to {} significant digit{} of the uncertainty, the estimate to the same place (JCGM 100:2008, 7.2.6)",
+            style.digits,
+            if style.digits == 1 { "" } else { "s" }
+        ));
+        lines.push(format!(
+            "first-order result (not validated, not the reported result): {name} = {}{unit}, {}{unit}",
+            wu.concise, wbig.plus_minus
+        ));
+        for w in &r.warnings {
+            lines.push(format!("WARNING  {w}"));
+        }
+        return lines;
+    }
     lines.push(format!(
         "result   {name} = {}{unit}   (in parentheses: the standard uncertainty u in units of the last digits)",
         wu.concise
@@ -475,10 +511,8 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
     let name = &r.name;
     let p = percent(m.coverage_probability);
     // Interval ends to one digit more than the standard uncertainty shows.
-    let end = |v: f64| {
-        let w = write(v, m.standard_uncertainty, style.digits + 1);
-        w.with_power(&w.value)
-    };
+    let like = write(m.value, m.standard_uncertainty, style.digits + 1);
+    let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
     let w = write(m.value, m.standard_uncertainty, style.digits);
     let mut lines = vec![
         format!(
@@ -563,7 +597,7 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
         if v.passed {
             "PASSED, the first-order result is validated"
         } else {
-            "NOT PASSED, the first-order result is not validated at this tolerance; report the Monte Carlo result"
+            "NOT PASSED, the first-order result is not validated at this tolerance; the Monte Carlo result is the reported result"
         }
     ));
     lines

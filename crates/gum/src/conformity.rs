@@ -382,6 +382,23 @@ pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConfo
     let accepted = c.verdict == "accepted";
     let p = mc.conformance_probability;
     mc.specific_risk = if accepted { 1.0 - p } else { p };
+    if disagrees(c.conformance_probability, &mc) {
+        let text = format!(
+            "the Monte Carlo conformance probability {} (standard uncertainty {}) differs from the \
+             first-order {} by more than three standard uncertainties: the first-order distribution \
+             does not describe the measurand well here, and the first-order p_c and risks should not \
+             be relied on",
+            probability(p),
+            probability(mc.standard_uncertainty),
+            probability(c.conformance_probability)
+        );
+        c.notes.push(text);
+        c.statement.push_str(&format!(
+            " Propagation of distributions (JCGM 101:2008) gives a conformance probability of {}, \
+             which disagrees with this first-order figure; review before use.",
+            probability(p)
+        ));
+    }
     if let Guard::SpecificRisk(alpha) = spec.guard {
         let mc_accepts = match spec.rule {
             Rule::GuardedAcceptance => 1.0 - p <= alpha,
@@ -398,6 +415,75 @@ pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConfo
         }
     }
     c.monte_carlo = Some(mc);
+}
+
+/// Whether a Monte Carlo p_c differs from the first-order one by more than
+/// three standard uncertainties of the count (the binomial √(p(1 − p)/M),
+/// at least 1/M so that a count of all or none is not taken as exact).
+fn disagrees(first_order: f64, mc: &McConformance) -> bool {
+    let m = mc.trials.max(1) as f64;
+    let u = mc.standard_uncertainty.max(1.0 / m);
+    (mc.conformance_probability - first_order).abs() > 3.0 * u
+}
+
+/// Conformity decided on the Monte Carlo result, for when it is the
+/// reported result (the first-order one not validated, JCGM 101:2008,
+/// 8.2): the measured value is the mean of the trials, U half the width of
+/// the coverage interval (w = r U uses it), p_c the fraction of trials in
+/// the tolerance interval, and a rule set by a largest specific risk
+/// decides on that p_c.
+pub fn decide_on_monte_carlo(
+    spec: &Specification,
+    value: f64,
+    standard_uncertainty: f64,
+    half_width: f64,
+    coverage_probability: f64,
+    mut mc: McConformance,
+    unit: Option<&str>,
+) -> Result<Conformity, ConformityError> {
+    let belief = Belief {
+        value,
+        standard_uncertainty,
+        dof: None,
+    };
+    let k = if standard_uncertainty > 0.0 {
+        half_width / standard_uncertainty
+    } else {
+        2.0
+    };
+    let mut c = assess(spec, belief, half_width, k, coverage_probability, unit)?;
+    let p = mc.conformance_probability;
+    let mut accepted = c.verdict == "accepted";
+    if let Guard::SpecificRisk(alpha) = spec.guard {
+        accepted = match spec.rule {
+            Rule::GuardedAcceptance => 1.0 - p <= alpha,
+            Rule::GuardedRejection => p > alpha,
+            Rule::SimpleAcceptance => accepted,
+        };
+    }
+    c.conformance_probability = p;
+    c.verdict = if accepted { "accepted" } else { "rejected" }.to_string();
+    c.specific_risk_kind = if accepted { "consumer's" } else { "producer's" }.to_string();
+    c.specific_risk = if accepted { 1.0 - p } else { p };
+    c.distribution = format!(
+        "the {} Monte Carlo trials (fraction inside the tolerance interval)",
+        mc.trials
+    );
+    mc.specific_risk = c.specific_risk;
+    mc.same_verdict = None;
+    c.monte_carlo = Some(mc);
+    c.notes.push(
+        "decided on the result of propagation of distributions (JCGM 101:2008, 8.2), because the \
+         first-order result was not validated: the measured value is the mean of the trials and p_c the \
+         fraction of trials inside the tolerance interval"
+            .to_string(),
+    );
+    c.statement = statement(&c, belief, half_width, unit);
+    c.statement.push_str(
+        " Result and conformance probability by propagation of distributions (JCGM 101:2008); the \
+         first-order result was not validated.",
+    );
+    Ok(c)
 }
 
 fn percent(p: f64) -> String {

@@ -55,4 +55,7 @@ pub fn units_factor(unit: &str) -> Option<f64> {
 pub use limits::Limits;
 pub use load::{load_file, load_file_with, load_str, load_str_with, ModelError, MAX_FILE_BYTES};
 pub use model::{Correlation, Distribution, DofRounding, Evaluation, Input, Measurand, Model};
-pub use propagate::{propagate, BudgetLine, MeasurandResult, Options, PropagationError, Report};
+pub use propagate::{
+    propagate, BudgetLine, MeasurandResult, Method, Options, PropagationError, Report,
+    ReportedResult,
+};

@@ -116,6 +116,35 @@ pub struct CorrelationLine {
     pub from_fit: Option<String>,
 }
 
+/// Which evaluation gives the reported result of a measurand.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Method {
+    /// The law of propagation of uncertainty (JCGM 100:2008).
+    FirstOrder,
+    /// Propagation of distributions (JCGM 101:2008), reported because the
+    /// first-order result was not validated (JCGM 101:2008, 8.2).
+    MonteCarlo,
+}
+
+/// The result a report states as *the* result of a measurand: estimate,
+/// standard uncertainty and coverage interval, with the method that gave
+/// them and why. Every writer and the conformity decision read this one.
+#[derive(Clone, Debug, Serialize)]
+pub struct ReportedResult {
+    pub method: Method,
+    /// Why this method, in words.
+    pub why: String,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub coverage_probability: f64,
+    /// y ± U (first order) or the probabilistically symmetric interval
+    /// (Monte Carlo), in the measurand's unit.
+    pub coverage_interval: [f64; 2],
+    /// U (first order) or half the width of the interval (Monte Carlo).
+    pub expanded_uncertainty: f64,
+}
+
 /// The result for one measurand.
 #[derive(Clone, Debug, Serialize)]
 pub struct MeasurandResult {
@@ -147,6 +176,9 @@ pub struct MeasurandResult {
     /// formula has no derivative, first-order terms that all vanish); every
     /// writer shows them beside the result.
     pub warnings: Vec<String>,
+    /// The reported result: the first-order one unless propagation of
+    /// distributions was run and did not validate it.
+    pub reported: ReportedResult,
 }
 
 /// A square matrix with names.
@@ -551,6 +583,18 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             monte_carlo: None,
             conformity: None,
             warnings,
+            reported: ReportedResult {
+                method: Method::FirstOrder,
+                why: "the law of propagation of uncertainty (JCGM 100:2008)".into(),
+                value: y_shown,
+                standard_uncertainty: u_for_expanded / f_out,
+                coverage_probability: p,
+                coverage_interval: [
+                    y_shown - k * u_for_expanded / f_out,
+                    y_shown + k * u_for_expanded / f_out,
+                ],
+                expanded_uncertainty: k * u_for_expanded / f_out,
+            },
         });
         if let Some(spec) = &m.specification {
             let r = results.last_mut().expect("just pushed");

@@ -38,6 +38,8 @@ pub struct Written {
     /// The uncertainty lies below the resolution of the estimate's
     /// [`MAX_SIGNIFICANT`] digits and was rounded up to it.
     pub below_resolution: bool,
+    /// The power of ten of the last digit shown (before the common power).
+    pub place: i32,
 }
 
 impl Written {
@@ -264,6 +266,7 @@ pub fn write(value: f64, u: f64, digits: u32) -> Written {
             concise: v.clone(),
             plus_minus: format!("{v} ± {u_text}"),
             below_resolution: false,
+            place: 0,
         };
     }
     let (mut ur, mut place) = round_decimal(u.abs(), digits);
@@ -321,7 +324,27 @@ pub fn write(value: f64, u: f64, digits: u32) -> Written {
         concise,
         plus_minus,
         below_resolution,
+        place,
     }
+}
+
+/// `v` rounded to the decimal place of `like` and written with its power
+/// of ten, so that interval ends read beside the result
+/// (`write_like(0.75e-3, &write(0.5e-3, 1e-5, 2))` → `0.750 × 10⁻³`).
+///
+/// ```
+/// use incertus_gum::rounding::{write, write_like};
+/// let w = write(36e-6, 27e-6, 2);
+/// assert_eq!(write_like(1.4e-6, &w), "1 × 10⁻⁶");
+/// assert_eq!(write_like(100.5e-6, &w), "101 × 10⁻⁶");
+/// ```
+pub fn write_like(v: f64, like: &Written) -> String {
+    if !v.is_finite() || like.uncertainty == "0" {
+        return significant(v, MAX_SIGNIFICANT as usize);
+    }
+    let shift = like.exponent.unwrap_or(0);
+    let d = Decimal::of(v).round_at(like.place, false);
+    like.with_power(&d.text(shift))
 }
 
 /// A number to `sig` significant digits for tables (no trailing exponent

@@ -785,7 +785,41 @@ pub fn attach(model: &Model, report: &mut Report, mc: &McReport) {
         .zip(&model.measurands)
     {
         r.monte_carlo = Some(serde_json::to_value(m).expect("plain data"));
-        if let (Some(c), Some(spec), Some(count)) = (
+        if !m.validation.passed {
+            // JCGM 101:2008, 8.2: the first-order result is not validated, so
+            // the Monte Carlo result is the reported one, everywhere.
+            let [lo, hi] = m.symmetric_interval;
+            r.reported = incertus_gum::ReportedResult {
+                method: incertus_gum::Method::MonteCarlo,
+                why: format!(
+                    "the first-order result was not validated by propagation of distributions \
+                     (JCGM 101:2008, 8.2: the ends of y ± U differ from those of the Monte Carlo \
+                     coverage interval by {} and {}, more than the numerical tolerance {})",
+                    incertus_gum::rounding::significant(m.validation.d_low, 3),
+                    incertus_gum::rounding::significant(m.validation.d_high, 3),
+                    incertus_gum::rounding::significant(m.validation.numerical_tolerance, 3)
+                ),
+                value: m.value,
+                standard_uncertainty: m.standard_uncertainty,
+                coverage_probability: m.coverage_probability,
+                coverage_interval: [lo, hi],
+                expanded_uncertainty: 0.5 * (hi - lo),
+            };
+            if let (Some(spec), Some(count)) = (meas.specification.as_ref(), m.conformance.as_ref())
+            {
+                if let Ok(c) = incertus_gum::conformity::decide_on_monte_carlo(
+                    spec,
+                    m.value,
+                    m.standard_uncertainty,
+                    0.5 * (hi - lo),
+                    m.coverage_probability,
+                    count.clone(),
+                    meas.unit.as_deref(),
+                ) {
+                    r.conformity = Some(c);
+                }
+            }
+        } else if let (Some(c), Some(spec), Some(count)) = (
             r.conformity.as_mut(),
             meas.specification.as_ref(),
             m.conformance.as_ref(),
