@@ -848,6 +848,35 @@ pub fn csv(report: &Report) -> String {
         "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share\n",
     );
     for r in &report.results {
+        // The reported result first (full precision), with its unit and method.
+        let rep = &r.reported;
+        let rows: [(&str, String); 10] = [
+            (
+                "method",
+                match rep.method {
+                    incertus_gum::Method::FirstOrder => "first_order".into(),
+                    incertus_gum::Method::MonteCarlo => "monte_carlo".into(),
+                },
+            ),
+            ("unit", csv_field(r.unit.as_deref().unwrap_or(""))),
+            ("value", format!("{:e}", rep.value)),
+            ("standard_uncertainty", format!("{:e}", rep.standard_uncertainty)),
+            ("expanded_uncertainty", format!("{:e}", rep.expanded_uncertainty)),
+            ("coverage_probability", format!("{:e}", rep.coverage_probability)),
+            ("coverage_interval_lower", format!("{:e}", rep.coverage_interval[0])),
+            ("coverage_interval_upper", format!("{:e}", rep.coverage_interval[1])),
+            ("coverage_factor", format!("{:e}", r.coverage_factor)),
+            ("effective_dof", opt(r.effective_dof_used)),
+        ];
+        for (what, v) in rows {
+            let mut fields = vec![String::new(); 12];
+            fields[0] = csv_field(&r.name);
+            fields[1] = "result".into();
+            fields[2] = what.into();
+            fields[3] = v;
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
         for b in &r.budget {
             let fields = [
                 csv_field(&r.name),
