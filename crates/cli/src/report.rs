@@ -860,11 +860,26 @@ pub fn csv(report: &Report) -> String {
             ),
             ("unit", csv_field(r.unit.as_deref().unwrap_or(""))),
             ("value", format!("{:e}", rep.value)),
-            ("standard_uncertainty", format!("{:e}", rep.standard_uncertainty)),
-            ("expanded_uncertainty", format!("{:e}", rep.expanded_uncertainty)),
-            ("coverage_probability", format!("{:e}", rep.coverage_probability)),
-            ("coverage_interval_lower", format!("{:e}", rep.coverage_interval[0])),
-            ("coverage_interval_upper", format!("{:e}", rep.coverage_interval[1])),
+            (
+                "standard_uncertainty",
+                format!("{:e}", rep.standard_uncertainty),
+            ),
+            (
+                "expanded_uncertainty",
+                format!("{:e}", rep.expanded_uncertainty),
+            ),
+            (
+                "coverage_probability",
+                format!("{:e}", rep.coverage_probability),
+            ),
+            (
+                "coverage_interval_lower",
+                format!("{:e}", rep.coverage_interval[0]),
+            ),
+            (
+                "coverage_interval_upper",
+                format!("{:e}", rep.coverage_interval[1]),
+            ),
             ("coverage_factor", format!("{:e}", r.coverage_factor)),
             ("effective_dof", opt(r.effective_dof_used)),
         ];

@@ -711,7 +711,8 @@ fn run_in_pool(
                     b.share * f
                 })
                 .sum();
-            (share > 0.0 && ratio / share > 1.0 + 1e-9).then(|| ratio / share)
+            // Stated from 1 % in variance (0.5 % in u) on.
+            (share > 0.0 && ratio / share > 1.01).then(|| ratio / share)
         };
         let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
         let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
