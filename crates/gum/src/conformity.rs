@@ -336,7 +336,7 @@ pub fn assess(
     let distribution = match belief.dof {
         None => "normal, N(y, u_c)".to_string(),
         Some(nu) => format!(
-            "Student's t with ν_eff = {} dof, scaled by u_c and centred on y",
+            "Student's t with {} dof (the ν_eff used for k), scaled by u_c and centred on y",
             crate::rounding::significant(nu, 3)
         ),
     };
