@@ -424,50 +424,6 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             }
         };
 
-        // Effective dof: Welch-Satterthwaite generalised to correlated
-        // inputs by the delta method (coverage::effective_dof_correlated;
-        // G.4.1 when nothing is correlated).
-        let block: Vec<usize> = used.iter().map(|&i| group_of[i]).collect();
-        let block_dof: Vec<Dof> = used.iter().map(|&i| model.inputs[i].dof).collect();
-        let wu: Vec<f64> = used.iter().map(|&i| w[i]).collect();
-        if corr_lines
-            .iter()
-            .any(|(cor, _)| model.inputs[cor.a].dof.is_some() || model.inputs[cor.b].dof.is_some())
-        {
-            grouped_note = true;
-        }
-        let nu_eff = if uc > 0.0 {
-            effective_dof_correlated(
-                &wu,
-                &|a, b| model.correlation(used[a], used[b]),
-                &block,
-                &block_dof,
-            )
-        } else {
-            None
-        };
-        let nu_used = dof_used(nu_eff, model.dof_rounding);
-        if nu_eff.is_some_and(|v| v < 1.0) {
-            notes.push(format!(
-                "`{}`: the effective degrees of freedom ({:.3}) are below 1; 1 is used for the coverage factor",
-                m.name,
-                nu_eff.expect("checked")
-            ));
-        }
-        let k = coverage_factor(p, nu_used);
-        if !k.is_finite() {
-            return Err(perr(
-                format!(
-                    "`{}`: no finite coverage factor exists for p = {p} with {} degrees of freedom; \
-                     choose a smaller coverage probability",
-                    m.name,
-                    nu_used.map_or("infinite".to_string(), |v| v.to_string())
-                ),
-                None,
-            )
-            .at(m.line));
-        }
-
         // Second-order terms (JCGM 100:2008, 5.1.2 note, eq. 10 extended).
         let second = if opts.second_order {
             Some(
@@ -500,6 +456,67 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 m.name
             ));
         }
+        // Effective dof: Welch-Satterthwaite generalised to correlated
+        // inputs by Satterthwaite's two moments (coverage::effective_dof_correlated;
+        // G.4.1 when nothing is correlated).
+        let block: Vec<usize> = used.iter().map(|&i| group_of[i]).collect();
+        let block_dof: Vec<Dof> = used.iter().map(|&i| model.inputs[i].dof).collect();
+        let wu: Vec<f64> = used.iter().map(|&i| w[i]).collect();
+        if corr_lines
+            .iter()
+            .any(|(cor, _)| model.inputs[cor.a].dof.is_some() || model.inputs[cor.b].dof.is_some())
+        {
+            grouped_note = true;
+        }
+        let nu_eff = if uc > 0.0 {
+            effective_dof_correlated(
+                &wu,
+                &|a, b| model.correlation(used[a], used[b]),
+                &block,
+                &block_dof,
+            )
+        } else if second.is_some_and(|v| v > 0.0) {
+            // Only higher-order terms: no Welch-Satterthwaite weights exist;
+            // the least dof of the uncertain inputs is the conservative
+            // choice (common practice, no published source).
+            let least = used
+                .iter()
+                .filter(|&&i| u[i] > 0.0)
+                .filter_map(|&i| model.inputs[i].dof)
+                .fold(None, |m: Option<f64>, d| Some(m.map_or(d, |m| m.min(d))));
+            if least.is_some() {
+                notes.push(format!(
+                    "`{}`: u comes from the higher-order terms alone, so ν_eff is taken as the least dof \
+                     of its inputs",
+                    m.name
+                ));
+            }
+            least
+        } else {
+            None
+        };
+        let nu_used = dof_used(nu_eff, model.dof_rounding);
+        if nu_eff.is_some_and(|v| v < 1.0) {
+            notes.push(format!(
+                "`{}`: the effective degrees of freedom ({:.3}) are below 1; 1 is used for the coverage factor",
+                m.name,
+                nu_eff.expect("checked")
+            ));
+        }
+        let k = coverage_factor(p, nu_used);
+        if !k.is_finite() {
+            return Err(perr(
+                format!(
+                    "`{}`: no finite coverage factor exists for p = {p} with {} degrees of freedom; \
+                     choose a smaller coverage probability",
+                    m.name,
+                    nu_used.map_or("infinite".to_string(), |v| v.to_string())
+                ),
+                None,
+            )
+            .at(m.line));
+        }
+
         let u_for_expanded = second.unwrap_or(uc);
         let uncertain: Vec<&str> = used
             .iter()
