@@ -131,3 +131,61 @@ fn walk<E: Env<f64> + ?Sized>(e: &Expr, env: &E, out: &mut Vec<NonSmooth>) {
 fn zero_base(base: f64, exponent: f64) -> bool {
     base == 0.0 && exponent.fract() != 0.0
 }
+
+/// Sub-formulas whose value at `env` underflows: a product or quotient of
+/// factors that are not zero, a power with a base that is not zero, or an
+/// `exp`, whose value comes out as zero or subnormal (below 2.2e-308, where
+/// digits are lost). Such a value makes a result or a sensitivity
+/// coefficient silently 0.
+///
+/// ```
+/// use incertus_expr::{parse, underflow_points};
+/// let f = parse("x*1e-200*1e-200").unwrap();
+/// assert_eq!(underflow_points(&f, &[("x", 1.0)]).len(), 1);
+/// assert!(underflow_points(&f, &[("x", 0.0)]).is_empty());
+/// ```
+pub fn underflow_points<E: Env<f64> + ?Sized>(e: &Expr, env: &E) -> Vec<NonSmooth> {
+    let mut out = Vec::new();
+    underflow_walk(e, env, &mut out);
+    out
+}
+
+fn tiny(v: f64) -> bool {
+    v == 0.0 || v.abs() < f64::MIN_POSITIVE
+}
+
+fn underflow_walk<E: Env<f64> + ?Sized>(e: &Expr, env: &E, out: &mut Vec<NonSmooth>) {
+    let value = |x: &Expr| x.eval::<f64, E>(env).ok();
+    let lost = match &e.kind {
+        Kind::Product(fs) => {
+            let parts: Option<Vec<f64>> = fs.iter().map(|f| value(&f.expr)).collect();
+            parts.is_some_and(|p| p.iter().all(|v| *v != 0.0)) && value(e).is_some_and(tiny)
+        }
+        Kind::Pow(b, _) => value(b).is_some_and(|v| v != 0.0) && value(e).is_some_and(tiny),
+        Kind::Call(Func::Exp | Func::Pow, args) => {
+            value(&args[0]).is_some_and(|v| v != 0.0) && value(e).is_some_and(tiny)
+        }
+        _ => false,
+    };
+    if lost {
+        out.push(NonSmooth {
+            function: "underflow".into(),
+            text: print(e),
+            span: e.span,
+            what: "its value lies below the normal range of double precision (about 2.2e-308)"
+                .into(),
+        });
+        return;
+    }
+    match &e.kind {
+        Kind::Neg(a) => underflow_walk(a, env, out),
+        Kind::Sum(ts) => ts.iter().for_each(|t| underflow_walk(&t.expr, env, out)),
+        Kind::Product(fs) => fs.iter().for_each(|f| underflow_walk(&f.expr, env, out)),
+        Kind::Pow(b, p) => {
+            underflow_walk(b, env, out);
+            underflow_walk(p, env, out);
+        }
+        Kind::Call(_, args) => args.iter().for_each(|a| underflow_walk(a, env, out)),
+        Kind::Num(_) | Kind::Pi | Kind::Var(_) => {}
+    }
+}

@@ -273,6 +273,22 @@ fn groups(model: &Model) -> Vec<usize> {
     (0..n).map(|i| find(&mut parent, i)).collect()
 }
 
+/// Zero or subnormal.
+fn tiny(v: f64) -> bool {
+    v == 0.0 || v.abs() < f64::MIN_POSITIVE
+}
+
+fn underflow(measurand: &str, what: &str, part: &str) -> PropagationError {
+    perr(
+        format!(
+            "`{measurand}`: the value of {what} at the input estimates underflows: `{part}` lies below \
+             the normal range of double precision (about 2.2e-308) and comes out as 0 or with lost \
+             digits; express the model in units that keep its values well inside that range"
+        ),
+        None,
+    )
+}
+
 /// Evaluate every measurand of the model.
 pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationError> {
     let p = opts
@@ -321,6 +337,11 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     for (mi, m) in model.measurands.iter().enumerate() {
         let f = &expanded[mi].1;
         let y = values[mi];
+        if tiny(y) {
+            if let Some(p) = incertus_expr::underflow_points(f, input_env.as_slice()).first() {
+                return Err(underflow(&m.name, &m.name, &p.text).at(m.line));
+            }
+        }
         let mut warnings: Vec<String> = incertus_expr::non_smooth_points(f, input_env.as_slice())
             .into_iter()
             .map(|p| {
@@ -403,8 +424,8 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             )
             .at(m.line));
         }
-        let tiny = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
-        if tiny(y) || tiny(uc) || used.iter().any(|&i| tiny(c[i] * u[i])) {
+        let subnormal = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
+        if subnormal(y) || subnormal(uc) {
             return Err(perr(
                 format!(
                     "the result of `{}` or its uncertainty lies below the normal range of double \
