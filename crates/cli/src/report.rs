@@ -170,7 +170,14 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         }
         (Some(v), None) => format!("ν_eff = {}", significant(v, 4)),
     };
-    let mut lines = vec![
+    let mut lines = Vec::new();
+    if r.reported.method == incertus_gum::Method::MonteCarlo {
+        lines.push(
+            "first-order evaluation (JCGM 100:2008), NOT VALIDATED and not the reported result:"
+                .to_string(),
+        );
+    }
+    lines.extend([
         format!(
             "estimate                          {name} = {}{unit}",
             significant(r.value, 10)
@@ -182,7 +189,7 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
                 .map(|x| format!("  (relative {})", significant(x, 3)))
                 .unwrap_or_default()
         ),
-    ];
+    ]);
     if let Some(s) = r.second_order_standard_uncertainty {
         lines.push(format!(
             "with higher-order terms           u({name}) = {}{unit}  (JCGM 100:2008, 5.1.2; used for U)",
