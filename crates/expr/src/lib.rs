@@ -36,5 +36,5 @@ pub use func::Func;
 pub use parse::{parse, parse_with, Limits};
 pub use print::{format_number, print, print_tree};
 pub use simplify::{negate, simplify};
-pub use smooth::{non_smooth_points, underflow_points, NonSmooth};
+pub use smooth::{kinks, non_smooth_points, underflow_points, Kink, NonSmooth};
 pub use tape::{BatchReport, ShapeError, Tape, LANES};

@@ -189,3 +189,74 @@ fn underflow_walk<E: Env<f64> + ?Sized>(e: &Expr, env: &E, out: &mut Vec<NonSmoo
         Kind::Num(_) | Kind::Pi | Kind::Var(_) => {}
     }
 }
+
+/// Where a built-in function loses its derivative, as a condition on one
+/// argument: the point lies at `argument = at` (one of them).
+#[derive(Clone, Debug)]
+pub struct Kink<'a> {
+    /// The function, as written.
+    pub function: &'static str,
+    /// The call, printed.
+    pub text: String,
+    /// The argument whose value decides.
+    pub argument: &'a Expr,
+    /// The values of the argument where the derivative is lost.
+    pub at: Vec<f64>,
+    /// Only when this other argument is negative (atan2's cut).
+    pub when_negative: Option<&'a Expr>,
+}
+
+/// Every call (and power) in `e` that has a point without a derivative,
+/// with the argument values where it lies: `abs`, `sign`, `sqrt`, `cbrt`
+/// at 0, `asin` and `acos` at ±1, `acosh` at 1, `atan2(y, x)` at y = 0
+/// for x < 0, a power with a non-integer constant exponent at base 0.
+/// The caller compares the argument's estimate with its uncertainty to
+/// find results whose distribution reaches such a point.
+pub fn kinks(e: &Expr) -> Vec<Kink<'_>> {
+    let mut out = Vec::new();
+    kinks_walk(e, &mut out);
+    out
+}
+
+fn kinks_walk<'a>(e: &'a Expr, out: &mut Vec<Kink<'a>>) {
+    let mut add =
+        |function: &'static str, argument: &'a Expr, at: Vec<f64>, neg: Option<&'a Expr>| {
+            out.push(Kink {
+                function,
+                text: print(e),
+                argument,
+                at,
+                when_negative: neg,
+            })
+        };
+    let constant_fraction = |p: &Expr| {
+        p.eval::<f64, _>(&|_: &str| None::<f64>)
+            .is_ok_and(|v| v.fract() != 0.0)
+    };
+    match &e.kind {
+        Kind::Call(f, args) => {
+            match f {
+                Func::Abs | Func::Sign | Func::Sqrt | Func::Cbrt => {
+                    add(f.name(), &args[0], vec![0.0], None)
+                }
+                Func::Asin | Func::Acos => add(f.name(), &args[0], vec![-1.0, 1.0], None),
+                Func::Acosh => add("acosh", &args[0], vec![1.0], None),
+                Func::Atan2 => add("atan2", &args[0], vec![0.0], Some(&args[1])),
+                Func::Pow if constant_fraction(&args[1]) => add("pow", &args[0], vec![0.0], None),
+                _ => {}
+            }
+            args.iter().for_each(|a| kinks_walk(a, out));
+        }
+        Kind::Pow(b, p) => {
+            if constant_fraction(p) {
+                add("^", b, vec![0.0], None);
+            }
+            kinks_walk(b, out);
+            kinks_walk(p, out);
+        }
+        Kind::Neg(a) => kinks_walk(a, out),
+        Kind::Sum(ts) => ts.iter().for_each(|t| kinks_walk(&t.expr, out)),
+        Kind::Product(fs) => fs.iter().for_each(|f| kinks_walk(&f.expr, out)),
+        Kind::Num(_) | Kind::Pi | Kind::Var(_) => {}
+    }
+}

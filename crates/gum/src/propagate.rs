@@ -273,6 +273,72 @@ fn groups(model: &Model) -> Vec<usize> {
     (0..n).map(|i| find(&mut parent, i)).collect()
 }
 
+/// Warnings for the points without a derivative (`expr::kinks`) that lie
+/// within three standard uncertainties of a function's argument, though
+/// not on it (that is `non_smooth_points`): the distribution of the result
+/// reaches a kink, a jump or the edge of a domain, where the first-order
+/// result may be poor (three standard uncertainties: about 99.7 % of a
+/// normal distribution; common practice, no published source).
+fn near_kinks(model: &Model, f: &Expr, env: &[(&str, f64)], name: &str) -> Vec<String> {
+    let mut out = Vec::new();
+    for k in incertus_expr::kinks(f) {
+        let Ok(v) = k.argument.eval::<f64, _>(env) else {
+            continue;
+        };
+        if let Some(x) = k.when_negative {
+            if x.eval::<f64, _>(env).map_or(true, |x| x >= 0.0) {
+                continue;
+            }
+        }
+        let distance =
+            k.at.iter()
+                .map(|a| (v - a).abs())
+                .fold(f64::INFINITY, f64::min);
+        if distance == 0.0 || !distance.is_finite() {
+            continue;
+        }
+        // u of the argument, first order, with the inputs' correlations.
+        let idx: Vec<usize> = (0..model.inputs.len())
+            .filter(|&i| model.inputs[i].standard_uncertainty > 0.0)
+            .filter(|&i| k.argument.depends_on(&model.inputs[i].name))
+            .collect();
+        let c: Vec<f64> = idx
+            .iter()
+            .map(|&i| {
+                derivative(k.argument, &model.inputs[i].name)
+                    .eval::<f64, _>(env)
+                    .unwrap_or(0.0)
+                    * model.inputs[i].standard_uncertainty
+            })
+            .collect();
+        let mut u2 = 0.0;
+        for (a, &i) in idx.iter().enumerate() {
+            for (b, &j) in idx.iter().enumerate() {
+                u2 += c[a] * c[b] * model.correlation(i, j);
+            }
+        }
+        let u = u2.max(0.0).sqrt();
+        if u > 0.0 && distance <= 3.0 * u {
+            out.push(format!(
+                "`{}` in the formula of `{name}`: its argument {} lies within {} standard \
+                 uncertainties (u = {}) of {}, where {} has no derivative, so the distribution of the \
+                 result reaches that point and the first-order result may be poor; check it by \
+                 propagation of distributions (--mc, JCGM 101:2008)",
+                k.text,
+                crate::rounding::significant(v, 6),
+                crate::rounding::significant(distance / u, 2),
+                crate::rounding::significant(u, 3),
+                k.at.iter()
+                    .map(|a| crate::rounding::significant(*a, 3))
+                    .collect::<Vec<_>>()
+                    .join(" or "),
+                k.function
+            ));
+        }
+    }
+    out
+}
+
 /// Zero or subnormal.
 fn tiny(v: f64) -> bool {
     v == 0.0 || v.abs() < f64::MIN_POSITIVE
@@ -353,6 +419,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 )
             })
             .collect();
+        warnings.extend(near_kinks(model, f, &input_env, &m.name));
         let mut c = vec![0.0; n];
         let mut formulas = vec![String::new(); n];
         let mut flat_everywhere = vec![false; n];

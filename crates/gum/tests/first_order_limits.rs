@@ -155,3 +155,28 @@ fn no_conformity_verdict_without_the_warning() {
     );
     assert!(c.notes.iter().any(|n| n.contains("abs")));
 }
+
+#[test]
+fn points_within_reach_of_the_uncertainty_are_named_too() {
+    // common practice, no published source: a kink within three standard
+    // uncertainties of the argument's estimate is reached by its distribution.
+    for (formula, x1, x2, near) in [
+        ("abs(x1 - x2)", 3.02, 3.0, true),
+        ("abs(x1 - x2)", 3.5, 3.0, false),
+        ("sign(x1 - x2)*x1", 3.1, 3.0, true),
+        ("sqrt(x1 - x2)", 3.2, 3.0, true),
+        ("sqrt(x1 - x2)", 4.0, 3.0, false),
+        ("asin(x1 - x2)", 3.9, 3.0, true),
+        ("atan2(x1 - x2, -1)", 3.1, 3.0, true),
+        ("atan2(x1 - x2, 1)", 3.1, 3.0, false),
+        ("(x1 - x2)^0.5", 3.2, 3.0, true),
+    ] {
+        let m = two_inputs(x1, 0.1, x2, 0.1, formula);
+        let r = propagate(&m, &Options::default()).unwrap();
+        let w = &r.results[0].warnings;
+        let found = w
+            .iter()
+            .any(|w| w.contains("standard uncertainties") && w.contains("--mc"));
+        assert_eq!(found, near, "{formula} at {x1}, {x2}: {w:?}");
+    }
+}
