@@ -6,7 +6,9 @@
 //! Rounding works on the decimal digits of the shortest representation of
 //! each `f64` (what a person reads as the number), never on products with
 //! powers of ten, so subnormal and huge values round as exactly as small
-//! ones. The digits in parentheses are always the uncertainty in units of
+//! ones. A tie (0.25 to one digit) goes away from zero, so an uncertainty
+//! is never rounded down at a tie (common practice, no published source;
+//! JCGM 100:2008, 7.2.6 allows rounding uncertainties up). The digits in parentheses are always the uncertainty in units of
 //! the last digit shown: when that digit would lie left of the units digit
 //! (500 ± 120), a power of ten is factored out, `0.50(12) × 10³`, as the SI
 //! Brochure (9th ed., 5.4) writes it. Very large or small numbers get a
