@@ -51,20 +51,20 @@ pub fn welch_satterthwaite(uc: f64, components: &[(f64, Dof)]) -> Dof {
 /// repeated experiments in `crates/gum/tests/effective_dof.rs`.
 ///
 /// `block[i]` names the block of input i (any labels), `block_dof[i]` its
-/// dof (`None` = infinite: that block adds nothing). `r(i, j)` gives the
-/// correlation coefficient (1 on the diagonal). `None` when no block with
-/// finite dof contributes.
+/// dof (`None` = infinite: that block adds nothing). `correlations` lists
+/// each correlated pair (i, j, r_ij) of indices into `w` once. `None` when
+/// no block with finite dof contributes. The work grows with the number of
+/// inputs and correlations, not with its square.
 ///
 /// ```
 /// use incertus_gum::coverage::effective_dof_correlated;
 /// // Independent, w = (1, 1), 4 dof each: Welch-Satterthwaite gives 2²/(1/4 + 1/4) = 8.
-/// let nu = effective_dof_correlated(&[1.0, 1.0], &|i, j| if i == j { 1.0 } else { 0.0 },
-///     &[0, 1], &[Some(4.0), Some(4.0)]);
+/// let nu = effective_dof_correlated(&[1.0, 1.0], &[], &[0, 1], &[Some(4.0), Some(4.0)]);
 /// assert!((nu.unwrap() - 8.0).abs() < 1e-12);
 /// ```
 pub fn effective_dof_correlated(
     w: &[f64],
-    r: &dyn Fn(usize, usize) -> f64,
+    correlations: &[(usize, usize, f64)],
     block: &[usize],
     block_dof: &[Dof],
 ) -> Dof {
@@ -89,67 +89,76 @@ pub fn effective_dof_correlated(
             nu[of[i]] = Some(nu[of[i]].map_or(d, |m: f64| m.min(d)));
         }
     }
-    // Q_AB = Σ_{i∈A, j∈B} v_i v_j r_ij (symmetric, sparse).
+    // Q_AB = Σ_{i∈A, j∈B} v_i v_j r_ij over both orders (sparse: the
+    // diagonal and the listed correlations).
     let mut q: std::collections::BTreeMap<(usize, usize), f64> = Default::default();
     for i in 0..n {
-        if v[i] == 0.0 {
+        *q.entry((of[i], of[i])).or_insert(0.0) += v[i] * v[i];
+    }
+    for &(i, j, r) in correlations {
+        if i == j || r == 0.0 || v[i] == 0.0 || v[j] == 0.0 {
             continue;
         }
-        for j in 0..n {
-            if v[j] == 0.0 {
-                continue;
-            }
-            let rij = if i == j { 1.0 } else { r(i, j) };
-            if rij != 0.0 {
-                let (a, b) = (of[i].min(of[j]), of[i].max(of[j]));
-                *q.entry((a, b)).or_insert(0.0) += v[i] * v[j] * rij;
-            }
-        }
+        let (a, b) = (of[i].min(of[j]), of[i].max(of[j]));
+        *q.entry((a, b)).or_insert(0.0) += 2.0 * v[i] * v[j] * r;
     }
     let total: f64 = q.values().sum();
     if total <= 0.0 {
         return None;
     }
-    // Terms of û² = Σ_B Q_BB λ_B² + Σ_{A<B} Q_AB λ_A λ_B (Q_AB holds both
-    // orders), with the finite-dof blocks they involve.
+    // Terms of û² = Σ_B Q_BB λ_B² + Σ_{A<B} Q_AB λ_A λ_B, relative to u².
     let terms: Vec<(f64, usize, usize)> = q
         .iter()
         .filter(|(_, &c)| c != 0.0)
         .map(|(&(a, b), &c)| (c / total, a, b))
         .collect();
+    let random = |b: usize| nu[b].is_some();
+    // The terms in which each random block appears.
+    let mut terms_of: Vec<Vec<usize>> = vec![Vec::new(); nb];
+    for (t, &(_, a, b)) in terms.iter().enumerate() {
+        if random(a) {
+            terms_of[a].push(t);
+        }
+        if random(b) && b != a {
+            terms_of[b].push(t);
+        }
+    }
     let moment = |b: usize, k: i32| -> f64 { nu[b].map_or(1.0, |d| scale_moment(d, k)) };
-    // E[Π λ^powers] for a multiset of blocks.
-    let expect = |blocks: &[usize]| -> f64 {
-        let mut sorted = blocks.to_vec();
-        sorted.sort_unstable();
+    // E[Π λ] over a multiset of blocks.
+    let expect = |blocks: &mut [usize]| -> f64 {
+        blocks.sort_unstable();
         let mut e = 1.0;
         let mut i = 0;
-        while i < sorted.len() {
+        while i < blocks.len() {
             let mut k = 1;
-            while i + k < sorted.len() && sorted[i + k] == sorted[i] {
+            while i + k < blocks.len() && blocks[i + k] == blocks[i] {
                 k += 1;
             }
-            e *= moment(sorted[i], k as i32);
+            e *= moment(blocks[i], k as i32);
             i += k;
         }
         e
     };
-    let random = |b: usize| nu[b].is_some();
-    let mean: f64 = terms.iter().map(|&(c, a, b)| c * expect(&[a, b])).sum();
+    let mean: f64 = terms.iter().map(|&(c, a, b)| c * expect(&mut [a, b])).sum();
+    // var = Σ_{t1, t2} c1 c2 cov(term1, term2); only terms sharing a random
+    // block are dependent.
     let mut var = 0.0;
-    for &(c1, a1, b1) in &terms {
-        if !random(a1) && !random(b1) {
-            continue;
-        }
-        for &(c2, a2, b2) in &terms {
-            let shares = [a1, b1]
-                .iter()
-                .any(|x| random(*x) && (*x == a2 || *x == b2));
-            if shares {
-                var +=
-                    c1 * c2 * (expect(&[a1, b1, a2, b2]) - expect(&[a1, b1]) * expect(&[a2, b2]));
+    let mut partners: Vec<usize> = Vec::new();
+    for (t1, &(c1, a1, b1)) in terms.iter().enumerate() {
+        partners.clear();
+        for blk in [a1, b1] {
+            if random(blk) {
+                partners.extend_from_slice(&terms_of[blk]);
             }
         }
+        partners.sort_unstable();
+        partners.dedup();
+        let e1 = expect(&mut [a1, b1]);
+        for &t2 in &partners {
+            let (c2, a2, b2) = terms[t2];
+            var += c1 * c2 * (expect(&mut [a1, b1, a2, b2]) - e1 * expect(&mut [a2, b2]));
+        }
+        let _ = t1;
     }
     if var <= 0.0 {
         None

@@ -249,12 +249,14 @@ impl Session {
             .collect();
         let dof: Vec<Dof> = idx.iter().map(|&i| self.inputs[i].dof).collect();
         let block: Vec<usize> = (0..idx.len()).collect();
-        Ok(effective_dof_correlated(
-            &w,
-            &|a, b| self.corr(idx[a], idx[b]),
-            &block,
-            &dof,
-        ))
+        let position: std::collections::HashMap<usize, usize> =
+            idx.iter().enumerate().map(|(k, &i)| (i, k)).collect();
+        let pairs: Vec<(usize, usize, f64)> = self
+            .correlations
+            .iter()
+            .filter_map(|&(i, j, r)| Some((*position.get(&i)?, *position.get(&j)?, r)))
+            .collect();
+        Ok(effective_dof_correlated(&w, &pairs, &block, &dof))
     }
 }
 

@@ -557,12 +557,15 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             grouped_note = true;
         }
         let nu_eff = if uc > 0.0 {
-            effective_dof_correlated(
-                &wu,
-                &|a, b| model.correlation(used[a], used[b]),
-                &block,
-                &block_dof,
-            )
+            // Correlated pairs as indices into `used`.
+            let position: std::collections::HashMap<usize, usize> =
+                used.iter().enumerate().map(|(k, &i)| (i, k)).collect();
+            let pairs: Vec<(usize, usize, f64)> = model
+                .correlations
+                .iter()
+                .filter_map(|c| Some((*position.get(&c.a)?, *position.get(&c.b)?, c.coefficient)))
+                .collect();
+            effective_dof_correlated(&wu, &pairs, &block, &block_dof)
         } else if second.is_some_and(|v| v > 0.0) {
             // Only higher-order terms: no Welch-Satterthwaite weights exist;
             // the least dof of the uncertain inputs is the conservative

@@ -181,7 +181,15 @@ fn simulate(case: &Case, experiments: usize, seed: u64) -> Outcome {
         let block: Vec<usize> = (0..m)
             .map(|i| if in_block(i) { usize::MAX } else { i })
             .collect();
-        let nu = effective_dof_correlated(&w, &|i, j| r[i][j], &block, &dof);
+        let mut pairs = Vec::new();
+        for i in 0..m {
+            for j in i + 1..m {
+                if r[i][j] != 0.0 {
+                    pairs.push((i, j, r[i][j]));
+                }
+            }
+        }
+        let nu = effective_dof_correlated(&w, &pairs, &block, &dof);
         let k = coverage_factor(p, dof_used(nu, DofRounding::Truncate));
         // The old rule: connected components of any correlation, least dof.
         let nu_old = old_rule(&w, &r, &dof, uc);
@@ -354,14 +362,18 @@ fn reduces_to_welch_satterthwaite_and_is_exact_for_a_block() {
     // JCGM 100:2008, G.4.1, eq. (G.2b) without correlations.
     let w = [0.3, 1.2, 0.7];
     let dof = [Some(3.0), Some(9.0), None];
-    let eye = |i: usize, j: usize| if i == j { 1.0 } else { 0.0 };
-    let nu = effective_dof_correlated(&w, &eye, &[0, 1, 2], &dof).unwrap();
+    let nu = effective_dof_correlated(&w, &[], &[0, 1, 2], &dof).unwrap();
     let uc = (0.09f64 + 1.44 + 0.49).sqrt();
     let ws = welch_satterthwaite(uc, &[(0.3, Some(3.0)), (1.2, Some(9.0)), (0.7, None)]).unwrap();
     assert!((nu / ws - 1.0).abs() < 1e-12, "{nu} vs {ws}");
     // One block observed together (any correlation): exactly its n − 1
     // (a quadratic form in a Wishart matrix is a scaled χ²).
-    let r = |i: usize, j: usize| if i == j { 1.0 } else { -0.6 };
-    let nu = effective_dof_correlated(&[1.0, 2.0], &r, &[5, 5], &[Some(7.0), Some(7.0)]).unwrap();
+    let nu = effective_dof_correlated(
+        &[1.0, 2.0],
+        &[(0, 1, -0.6)],
+        &[5, 5],
+        &[Some(7.0), Some(7.0)],
+    )
+    .unwrap();
     assert!((nu - 7.0).abs() < 1e-12);
 }
