@@ -118,9 +118,16 @@ pub fn columns_from_reader(
                 )));
             }
             let v: f64 = cell.parse().map_err(|_| {
+                let comma =
+                    cell.matches(',').count() == 1 && cell.replace(',', ".").parse::<f64>().is_ok();
                 DataError(format!(
-                    "{file}:{line}: column `{}` holds `{cell}`, which is not a number",
-                    names[c]
+                    "{file}:{line}: column `{}` holds `{cell}`, which is not a number{}",
+                    names[c],
+                    if comma {
+                        "; it looks like a decimal comma: export the data with decimal points"
+                    } else {
+                        ""
+                    }
                 ))
             })?;
             if !v.is_finite() {
