@@ -16,7 +16,6 @@ use incertus_fit::FitResult;
 use incertus_gum::Report;
 use incertus_mc::McReport;
 use plotters::prelude::*;
-use statrs::distribution::{Continuous, Normal, StudentsT};
 
 use crate::atomic::write_atomic;
 use crate::report::{self, Style};
@@ -129,13 +128,7 @@ fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String
 /// The density of the first-order distribution of a result: normal, or
 /// Student's t with the dof used for k, scaled by u_c and centred on y.
 fn first_order_pdf(r: &incertus_gum::MeasurandResult) -> impl Fn(f64) -> f64 + '_ {
-    let u = r.standard_uncertainty.max(f64::MIN_POSITIVE);
-    move |x: f64| match r.effective_dof_used {
-        Some(nu) => StudentsT::new(r.value, u, nu)
-            .map(|d| d.pdf(x))
-            .unwrap_or(0.0),
-        None => Normal::new(r.value, u).map(|d| d.pdf(x)).unwrap_or(0.0),
-    }
+    move |x: f64| r.first_order_density(x)
 }
 
 /// The Monte Carlo histogram with the first-order distribution and both
@@ -367,25 +360,6 @@ fn conformity_svg(
 }
 
 /// u(ŷ) at x from the parameters' covariance (g = 1, x, x², ...).
-fn u_fit(f: &FitResult, x: f64) -> f64 {
-    let p = f.parameters.len();
-    let g: Vec<f64> = (0..p).map(|k| x.powi(k as i32)).collect();
-    let mut s = 0.0;
-    for i in 0..p {
-        for j in 0..p {
-            s += g[i] * f.covariance[i][j] * g[j];
-        }
-    }
-    s.max(0.0).sqrt()
-}
-
-fn yhat(f: &FitResult, x: f64) -> f64 {
-    f.parameters
-        .iter()
-        .rev()
-        .fold(0.0, |acc, p| acc * x + p.value)
-}
-
 type Chart<'a, 'b> = ChartContext<
     'a,
     SVGBackend<'b>,
@@ -463,15 +437,15 @@ fn fit_svgs(
     let (x0, x1) = (x0 - pad, x1 + pad);
     let line: Vec<(f64, f64)> = (0..=200)
         .map(|i| x0 + (x1 - x0) * i as f64 / 200.0)
-        .map(|x| (x, yhat(f, x)))
+        .map(|x| (x, f.predict(x)))
         .collect();
     let band_hi: Vec<(f64, f64)> = line
         .iter()
-        .map(|&(x, y)| (x, y + 2.0 * u_fit(f, x)))
+        .map(|&(x, y)| (x, y + 2.0 * f.predict_standard_uncertainty(x)))
         .collect();
     let band_lo: Vec<(f64, f64)> = line
         .iter()
-        .map(|&(x, y)| (x, y - 2.0 * u_fit(f, x)))
+        .map(|&(x, y)| (x, y - 2.0 * f.predict_standard_uncertainty(x)))
         .collect();
     let (mut y0, mut y1) = ys
         .iter()

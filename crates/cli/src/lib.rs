@@ -78,7 +78,7 @@ impl Failure {
 
 /// The size limits, with the environment's overrides (`INCERTUS_MAX_*`).
 pub(crate) fn limits() -> Result<incertus_gum::Limits, Failure> {
-    incertus_gum::Limits::from_env().map_err(Failure::input)
+    incertus_gum::Limits::with_settings(|name| std::env::var(name).ok()).map_err(Failure::input)
 }
 
 /// Stack of the thread that runs a command: formulas are walked

@@ -82,6 +82,41 @@ impl FitResult {
     pub fn parameter(&self, name: &str) -> Option<usize> {
         self.parameters.iter().position(|p| p.name == name)
     }
+
+    /// The fitted polynomial at `x`, ŷ = Σ_k b_k x^k (Horner), for the
+    /// polynomial and straight-line fits.
+    ///
+    /// ```
+    /// use incertus_fit::{fit, FitRequest};
+    /// let x = [0.0, 1.0, 2.0, 3.0];
+    /// let y = [1.0, 3.1, 4.9, 7.0];
+    /// let f = fit(&FitRequest {
+    ///     x: &x, y: &y, u_y: None, u_x: None, rows: vec![1, 2, 3, 4], degree: 1,
+    ///     exclude: vec![], exclude_reason: None, scale_by_chi_squared: false, diagnostics: false,
+    /// })
+    /// .unwrap();
+    /// assert!((f.predict(1.5) - (f.parameters[0].value + 1.5 * f.parameters[1].value)).abs() < 1e-12);
+    /// ```
+    pub fn predict(&self, x: f64) -> f64 {
+        self.parameters
+            .iter()
+            .rev()
+            .fold(0.0, |acc, p| acc * x + p.value)
+    }
+
+    /// The standard uncertainty of ŷ(x) from the parameters' covariance,
+    /// √(gᵀ V g) with g = (1, x, x², …) (JCGM 100:2008, H.3.5).
+    pub fn predict_standard_uncertainty(&self, x: f64) -> f64 {
+        let p = self.parameters.len();
+        let g: Vec<f64> = (0..p).map(|k| x.powi(k as i32)).collect();
+        let mut s = 0.0;
+        for i in 0..p {
+            for j in 0..p {
+                s += g[i] * self.covariance[i][j] * g[j];
+            }
+        }
+        s.max(0.0).sqrt()
+    }
 }
 
 /// Why a fit cannot be made.

@@ -47,25 +47,55 @@ impl Default for Limits {
 }
 
 impl Limits {
-    /// The defaults, with any limit raised or lowered by its environment
-    /// variable. An unreadable value is an error naming the variable.
-    pub fn from_env() -> Result<Limits, String> {
+    /// The defaults, with any limit raised or lowered by a setting named as
+    /// its environment variable (`INCERTUS_MAX_INPUTS`, ...). `lookup`
+    /// gives a setting's text; the library never reads the environment
+    /// itself (the command line passes `std::env::var`). An unreadable
+    /// value is an error naming the setting.
+    ///
+    /// ```
+    /// use incertus_gum::Limits;
+    /// let l = Limits::with_settings(|name| (name == "INCERTUS_MAX_INPUTS").then(|| "12".to_string()))
+    ///     .unwrap();
+    /// assert_eq!(l.max_inputs, 12);
+    /// ```
+    pub fn with_settings(lookup: impl Fn(&str) -> Option<String>) -> Result<Limits, String> {
         let mut l = Limits::default();
-        fn read<T: std::str::FromStr>(name: &str, slot: &mut T) -> Result<(), String> {
-            if let Ok(v) = std::env::var(name) {
-                *slot = v.trim().parse().map_err(|_| {
-                    format!("environment variable {name}: `{v}` is not a whole number")
-                })?;
+        let read = |name: &str, slot: &mut dyn FnMut(&str) -> bool| -> Result<(), String> {
+            if let Some(v) = lookup(name) {
+                if !slot(v.trim()) {
+                    return Err(format!(
+                        "environment variable {name}: `{v}` is not a whole number"
+                    ));
+                }
             }
             Ok(())
+        };
+        fn set<T: std::str::FromStr>(slot: &mut T) -> impl FnMut(&str) -> bool + '_ {
+            move |t: &str| match t.parse() {
+                Ok(v) => {
+                    *slot = v;
+                    true
+                }
+                Err(_) => false,
+            }
         }
-        read("INCERTUS_MAX_FILE_BYTES", &mut l.max_file_bytes)?;
-        read("INCERTUS_MAX_INPUTS", &mut l.max_inputs)?;
-        read("INCERTUS_MAX_MEASURANDS", &mut l.max_measurands)?;
-        read("INCERTUS_MAX_FORMULA_NODES", &mut l.max_formula_nodes)?;
-        read("INCERTUS_MAX_FORMULA_DEPTH", &mut l.max_formula_depth)?;
-        read("INCERTUS_MAX_DERIVATIVE_NODES", &mut l.max_derivative_nodes)?;
-        read("INCERTUS_MAX_DATA_ROWS", &mut l.max_data_rows)?;
+        read("INCERTUS_MAX_FILE_BYTES", &mut set(&mut l.max_file_bytes))?;
+        read("INCERTUS_MAX_INPUTS", &mut set(&mut l.max_inputs))?;
+        read("INCERTUS_MAX_MEASURANDS", &mut set(&mut l.max_measurands))?;
+        read(
+            "INCERTUS_MAX_FORMULA_NODES",
+            &mut set(&mut l.max_formula_nodes),
+        )?;
+        read(
+            "INCERTUS_MAX_FORMULA_DEPTH",
+            &mut set(&mut l.max_formula_depth),
+        )?;
+        read(
+            "INCERTUS_MAX_DERIVATIVE_NODES",
+            &mut set(&mut l.max_derivative_nodes),
+        )?;
+        read("INCERTUS_MAX_DATA_ROWS", &mut set(&mut l.max_data_rows))?;
         Ok(l)
     }
 }

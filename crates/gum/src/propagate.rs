@@ -181,6 +181,28 @@ pub struct MeasurandResult {
     pub reported: ReportedResult,
 }
 
+impl MeasurandResult {
+    /// The density of the first-order state of knowledge at `x`: normal
+    /// N(y, u) or, with a finite ν_eff used for k, Student's t scaled by u
+    /// and centred on y (JCGM 100:2008, G.3; JCGM 101:2008, 6.4.9), with the
+    /// u the expanded uncertainty was made from (U/k). For plots.
+    pub fn first_order_density(&self, x: f64) -> f64 {
+        use statrs::distribution::{Continuous, Normal, StudentsT};
+        let u = if self.coverage_factor > 0.0 {
+            self.expanded_uncertainty / self.coverage_factor
+        } else {
+            self.standard_uncertainty
+        }
+        .max(f64::MIN_POSITIVE);
+        match self.effective_dof_used {
+            Some(nu) => StudentsT::new(self.value, u, nu)
+                .map(|d| d.pdf(x))
+                .unwrap_or(0.0),
+            None => Normal::new(self.value, u).map(|d| d.pdf(x)).unwrap_or(0.0),
+        }
+    }
+}
+
 /// A square matrix with names.
 #[derive(Clone, Debug, Serialize)]
 pub struct NamedMatrix {
