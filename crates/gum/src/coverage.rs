@@ -3,7 +3,17 @@
 
 use statrs::distribution::{Continuous, ContinuousCDF, Normal, StudentsT};
 
-use crate::model::{Dof, DofRounding};
+/// Degrees of freedom: `None` means infinite.
+pub type Dof = Option<f64>;
+
+/// How ν_eff becomes the dof used for the coverage factor.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum DofRounding {
+    /// To the next lower integer (JCGM 100:2008, G.4.1 and G.6.4).
+    Truncate,
+    /// Use ν_eff as computed (Student's t accepts any positive ν).
+    Exact,
+}
 
 /// ν_eff = u_c⁴ / Σ u_i⁴/ν_i (JCGM 100:2008, G.4.1, eq. G.2b), for
 /// independent components `(u_i, ν_i)` with u_i = |c_i| u(x_i).

@@ -9,8 +9,7 @@
 
 use incertus_expr::Expr;
 
-/// Degrees of freedom: `None` means infinite.
-pub type Dof = Option<f64>;
+pub use crate::coverage::{Dof, DofRounding};
 
 /// How the standard uncertainty of an input was obtained.
 #[derive(Clone, Debug, PartialEq)]
@@ -242,15 +241,6 @@ pub struct Measurand {
     /// Celsius temperature difference is the same number in K).
     pub interval: bool,
     pub line: usize,
-}
-
-/// How ν_eff becomes the dof used for the coverage factor.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum DofRounding {
-    /// To the next lower integer (JCGM 100:2008, G.4.1 and G.6.4).
-    Truncate,
-    /// Use ν_eff as computed (Student's t accepts any positive ν).
-    Exact,
 }
 
 /// A whole measurement model.
