@@ -329,7 +329,7 @@ fn conformity_svg(
             .map_err(perr)?
             .label("tolerance limits")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], DARK.stroke_width(3)));
-        if c.rule != "simple acceptance" {
+        if c.rule != incertus_gum::conformity::Rule::SimpleAcceptance {
             let acc: Vec<f64> = [al, ah].into_iter().filter_map(near).collect();
             chart
                 .draw_series(

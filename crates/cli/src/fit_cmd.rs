@@ -155,7 +155,7 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
                 matrix: vec![],
             },
             notes: Vec::new(),
-            effective_dof_rounding: "truncate".into(),
+            effective_dof_rounding: incertus_gum::DofRounding::Truncate,
         };
         let files = crate::files::write_report(
             dir,

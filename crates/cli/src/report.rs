@@ -31,10 +31,11 @@ fn percent(p: f64) -> String {
 }
 
 fn type_text(b: &incertus_gum::BudgetLine) -> String {
-    match b.evaluation.as_str() {
-        "A" => format!("A, n = {}", b.observations.unwrap_or(0)),
-        "B" => format!("B, {}", b.distribution),
-        "constant" => format!("constant, {}", b.distribution),
+    use incertus_gum::propagate::EvaluationKind;
+    match b.evaluation {
+        EvaluationKind::TypeA => format!("A, n = {}", b.observations.unwrap_or(0)),
+        EvaluationKind::TypeB => format!("B, {}", b.distribution),
+        EvaluationKind::Constant => format!("constant, {}", b.distribution),
         other => other.to_string(),
     }
 }
@@ -63,7 +64,9 @@ fn budget_rows(r: &MeasurandResult) -> Vec<Vec<String>> {
         row.extend([
             significant(b.standard_uncertainty, 5),
             type_text(b),
-            if b.evaluation == "exact" || b.standard_uncertainty == 0.0 {
+            if b.evaluation == incertus_gum::propagate::EvaluationKind::Exact
+                || b.standard_uncertainty == 0.0
+            {
                 "-".into()
             } else {
                 dof_text(b.dof)
@@ -157,7 +160,7 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
     let dof = match (r.effective_dof, r.effective_dof_used) {
         (None, _) => "ν_eff = infinite".to_string(),
         (Some(v), Some(used)) => {
-            let rule = if report.effective_dof_rounding == "truncate" {
+            let rule = if report.effective_dof_rounding == incertus_gum::DofRounding::Truncate {
                 "truncated to an integer, JCGM 100:2008, G.4.1"
             } else {
                 "used as computed"
@@ -340,7 +343,7 @@ pub(crate) fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
     }
     lines.push(format!(
         "  verdict                            {}, specific {} risk {}",
-        c.verdict.to_uppercase(),
+        c.verdict.to_string().to_uppercase(),
         c.specific_risk_kind,
         probability(c.specific_risk)
     ));
@@ -907,7 +910,7 @@ pub fn csv(report: &Report) -> String {
                 format!("{:e}", b.value),
                 format!("{:e}", b.standard_uncertainty),
                 opt(b.dof),
-                b.evaluation.clone(),
+                b.evaluation.to_string(),
                 b.distribution.clone(),
                 format!("{:e}", b.sensitivity),
                 csv_field(&b.sensitivity_formula),
@@ -956,7 +959,7 @@ fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static st
     let mut rows = vec![
         ("lower_limit", opt(c.lower_limit)),
         ("upper_limit", opt(c.upper_limit)),
-        ("rule", csv_field(&c.rule)),
+        ("rule", csv_field(c.rule.name())),
         ("guard_band", opt(c.guard_band)),
     ];
     match c.acceptance_interval {
@@ -970,9 +973,9 @@ fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static st
         "conformance_probability",
         format!("{:e}", c.conformance_probability),
     ));
-    rows.push(("verdict", c.verdict.clone()));
+    rows.push(("verdict", c.verdict.to_string()));
     rows.push((
-        if c.specific_risk_kind == "consumer's" {
+        if c.specific_risk_kind == incertus_gum::conformity::RiskKind::Consumer {
             "specific_consumer_risk"
         } else {
             "specific_producer_risk"

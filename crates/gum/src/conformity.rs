@@ -34,14 +34,97 @@ use serde::Serialize;
 
 /// How the acceptance interval is placed against the tolerance interval
 /// (JCGM 106:2012, clause 8).
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 pub enum Rule {
     /// The acceptance interval is the tolerance interval.
+    #[serde(rename = "simple acceptance")]
     SimpleAcceptance,
     /// The acceptance interval is the tolerance interval shrunk by w.
+    #[serde(rename = "guarded acceptance")]
     GuardedAcceptance,
     /// The acceptance interval is the tolerance interval widened by w.
+    #[serde(rename = "guarded rejection")]
     GuardedRejection,
+}
+
+impl std::fmt::Display for Rule {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// The outcome of a decision rule.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Verdict {
+    Accepted,
+    Rejected,
+}
+
+impl Verdict {
+    fn of(accepted: bool) -> Verdict {
+        if accepted {
+            Verdict::Accepted
+        } else {
+            Verdict::Rejected
+        }
+    }
+
+    /// Whether the item is accepted.
+    pub fn accepted(self) -> bool {
+        self == Verdict::Accepted
+    }
+
+    /// The risk that goes with this verdict: the consumer's for an
+    /// accepted item, the producer's for a rejected one.
+    pub fn risk_kind(self) -> RiskKind {
+        match self {
+            Verdict::Accepted => RiskKind::Consumer,
+            Verdict::Rejected => RiskKind::Producer,
+        }
+    }
+}
+
+impl Verdict {
+    /// "accepted" or "rejected".
+    pub fn name(&self) -> &'static str {
+        match self {
+            Verdict::Accepted => "accepted",
+            Verdict::Rejected => "rejected",
+        }
+    }
+}
+
+impl std::fmt::Display for Verdict {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// Whose specific risk (JCGM 106:2012, 9.3): the consumer's (an accepted
+/// item that does not conform) or the producer's (a rejected item that does).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum RiskKind {
+    #[serde(rename = "consumer's")]
+    Consumer,
+    #[serde(rename = "producer's")]
+    Producer,
+}
+
+impl RiskKind {
+    /// "consumer's" or "producer's".
+    pub fn name(&self) -> &'static str {
+        match self {
+            RiskKind::Consumer => "consumer's",
+            RiskKind::Producer => "producer's",
+        }
+    }
+}
+
+impl std::fmt::Display for RiskKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
 }
 
 impl Rule {
@@ -217,8 +300,9 @@ impl McConformance {
 pub struct Conformity {
     pub lower_limit: Option<f64>,
     pub upper_limit: Option<f64>,
-    /// "simple acceptance", "guarded acceptance" or "guarded rejection".
-    pub rule: String,
+    /// The decision rule (serialised "simple acceptance", "guarded
+    /// acceptance" or "guarded rejection").
+    pub rule: Rule,
     /// How the guard band was set, in words.
     pub guard_band_rule: String,
     /// w (0 for simple acceptance; `None` when no guard band gives the
@@ -229,10 +313,10 @@ pub struct Conformity {
     /// The first-order distribution used, in words.
     pub distribution: String,
     pub conformance_probability: f64,
-    /// "accepted" or "rejected".
-    pub verdict: String,
-    /// "consumer's" (accepted item) or "producer's" (rejected item).
-    pub specific_risk_kind: String,
+    /// Accepted or rejected (serialised "accepted", "rejected").
+    pub verdict: Verdict,
+    /// Consumer's (accepted item) or producer's (rejected item).
+    pub specific_risk_kind: RiskKind,
     pub specific_risk: f64,
     /// C_m = (T_U − T_L)/(4 u_c) when both limits are given (JCGM 106:2012, 7.5).
     pub measurement_capability_index: Option<f64>,
@@ -358,14 +442,14 @@ pub fn assess(
     let mut c = Conformity {
         lower_limit: lo,
         upper_limit: hi,
-        rule: spec.rule.name().to_string(),
+        rule: spec.rule,
         guard_band_rule: guard_text,
         guard_band: (!w.is_nan()).then_some(w),
         acceptance_interval: acceptance,
         distribution,
         conformance_probability: pc,
-        verdict: if accepted { "accepted" } else { "rejected" }.to_string(),
-        specific_risk_kind: if accepted { "consumer's" } else { "producer's" }.to_string(),
+        verdict: Verdict::of(accepted),
+        specific_risk_kind: Verdict::of(accepted).risk_kind(),
         specific_risk: risk,
         measurement_capability_index: cm,
         global_risks,
@@ -379,7 +463,7 @@ pub fn assess(
 
 /// Merge the Monte Carlo count into an assessment.
 pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConformance) {
-    let accepted = c.verdict == "accepted";
+    let accepted = c.verdict.accepted();
     let p = mc.conformance_probability;
     mc.specific_risk = if accepted { 1.0 - p } else { p };
     if disagrees(c.conformance_probability, &mc) {
@@ -453,7 +537,7 @@ pub fn decide_on_monte_carlo(
     };
     let mut c = assess(spec, belief, half_width, k, coverage_probability, unit)?;
     let p = mc.conformance_probability;
-    let mut accepted = c.verdict == "accepted";
+    let mut accepted = c.verdict.accepted();
     if let Guard::SpecificRisk(alpha) = spec.guard {
         accepted = match spec.rule {
             Rule::GuardedAcceptance => 1.0 - p <= alpha,
@@ -462,8 +546,8 @@ pub fn decide_on_monte_carlo(
         };
     }
     c.conformance_probability = p;
-    c.verdict = if accepted { "accepted" } else { "rejected" }.to_string();
-    c.specific_risk_kind = if accepted { "consumer's" } else { "producer's" }.to_string();
+    c.verdict = Verdict::of(accepted);
+    c.specific_risk_kind = c.verdict.risk_kind();
     c.specific_risk = if accepted { 1.0 - p } else { p };
     c.distribution = format!(
         "the {} Monte Carlo trials (fraction inside the tolerance interval)",
@@ -757,30 +841,30 @@ fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> 
             b.map_or("+∞".to_string(), at)
         ),
     };
-    let rule = match c.rule.as_str() {
+    let rule = match c.rule {
         _ if c.acceptance_interval.is_none() => format!(
             "Decision rule: {} (JCGM 106:2012, clause 8), {}: with this uncertainty no measured value \
              can be accepted, as the tolerance interval {tolerance} leaves no room for the guard band.",
             c.rule, c.guard_band_rule
         ),
-        "simple acceptance" => format!(
+        Rule::SimpleAcceptance => format!(
             "Decision rule: simple acceptance (JCGM 106:2012, clause 8): the item is accepted when the \
              measured value lies in the tolerance interval {tolerance}, limits included."
         ),
-        "guarded acceptance" => format!(
+        Rule::GuardedAcceptance => format!(
             "Decision rule: guarded acceptance (JCGM 106:2012, clause 8): the item is accepted when the \
              measured value lies in the acceptance interval {acceptance}, the tolerance interval {tolerance} \
              reduced on each side by a {}.",
             c.guard_band_rule
         ),
-        _ => format!(
+        Rule::GuardedRejection => format!(
             "Decision rule: guarded rejection (JCGM 106:2012, clause 8): the item is rejected only when the \
              measured value lies outside the acceptance interval {acceptance}, the tolerance interval \
              {tolerance} widened on each side by a {}.",
             c.guard_band_rule
         ),
     };
-    let who = if c.verdict == "accepted" {
+    let who = if c.verdict.accepted() {
         "specific consumer's risk (probability that this accepted item does not conform)"
     } else {
         "specific producer's risk (probability that this rejected item conforms)"
@@ -814,3 +898,17 @@ pub fn probability(p: f64) -> String {
     }
     format!("{} %", crate::rounding::significant(100.0 * p, 4))
 }
+
+// Comparisons with the serialised names, as JSON readers and tests write them.
+macro_rules! eq_name {
+    ($t:ty) => {
+        impl PartialEq<&str> for $t {
+            fn eq(&self, other: &&str) -> bool {
+                self.name() == *other
+            }
+        }
+    };
+}
+eq_name!(Rule);
+eq_name!(Verdict);
+eq_name!(RiskKind);

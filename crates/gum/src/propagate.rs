@@ -90,8 +90,8 @@ pub struct BudgetLine {
     /// `None` = infinite.
     pub dof: Option<f64>,
     pub distribution: String,
-    /// "A", "B", "exact" or "constant".
-    pub evaluation: String,
+    /// Type A, Type B, exact, constant or a fit parameter.
+    pub evaluation: EvaluationKind,
     /// Number of observations of a Type A input.
     pub observations: Option<usize>,
     pub unit: Option<String>,
@@ -219,7 +219,7 @@ pub struct Report {
     pub correlation_matrix: NamedMatrix,
     pub covariance_matrix: NamedMatrix,
     pub notes: Vec<String>,
-    pub effective_dof_rounding: String,
+    pub effective_dof_rounding: crate::coverage::DofRounding,
 }
 
 /// Replace each name of an earlier measurand by its formula of the inputs.
@@ -261,14 +261,45 @@ pub fn expanded_formulas(model: &Model) -> Vec<(String, Expr)> {
     known
 }
 
-fn label(model: &Model, i: usize) -> (String, Option<usize>) {
+/// How an input of a budget line was evaluated (serialised "A", "B",
+/// "exact", "constant", "fit").
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum EvaluationKind {
+    /// Type A (JCGM 100:2008, 4.2).
+    #[serde(rename = "A")]
+    TypeA,
+    /// Type B (JCGM 100:2008, 4.3).
+    #[serde(rename = "B")]
+    TypeB,
+    #[serde(rename = "exact")]
+    Exact,
+    #[serde(rename = "constant")]
+    Constant,
+    /// A parameter of a least-squares fit.
+    #[serde(rename = "fit")]
+    Fit,
+}
+
+impl std::fmt::Display for EvaluationKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            EvaluationKind::TypeA => "A",
+            EvaluationKind::TypeB => "B",
+            EvaluationKind::Exact => "exact",
+            EvaluationKind::Constant => "constant",
+            EvaluationKind::Fit => "fit",
+        })
+    }
+}
+
+fn label(model: &Model, i: usize) -> (EvaluationKind, Option<usize>) {
     let inp = &model.inputs[i];
     match inp.evaluation {
-        Evaluation::TypeA { n, .. } => ("A".into(), Some(n)),
-        Evaluation::TypeB => ("B".into(), None),
-        Evaluation::Exact => ("exact".into(), None),
-        Evaluation::Constant { .. } => ("constant".into(), None),
-        Evaluation::Fit { .. } => ("fit".into(), None),
+        Evaluation::TypeA { n, .. } => (EvaluationKind::TypeA, Some(n)),
+        Evaluation::TypeB => (EvaluationKind::TypeB, None),
+        Evaluation::Exact => (EvaluationKind::Exact, None),
+        Evaluation::Constant { .. } => (EvaluationKind::Constant, None),
+        Evaluation::Fit { .. } => (EvaluationKind::Fit, None),
     }
 }
 
@@ -823,10 +854,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         },
         covariance_matrix: NamedMatrix { names, matrix: cov },
         notes,
-        effective_dof_rounding: match model.dof_rounding {
-            crate::model::DofRounding::Truncate => "truncate".into(),
-            crate::model::DofRounding::Exact => "exact".into(),
-        },
+        effective_dof_rounding: model.dof_rounding,
     })
 }
 
