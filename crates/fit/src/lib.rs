@@ -54,11 +54,46 @@ pub struct Point {
     pub excluded: bool,
 }
 
+/// How a fit was made (serialised "ordinary least squares", "weighted
+/// least squares", "York").
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum FitMethod {
+    #[serde(rename = "ordinary least squares")]
+    OrdinaryLeastSquares,
+    #[serde(rename = "weighted least squares")]
+    WeightedLeastSquares,
+    /// York's straight line with uncertainties in x and y.
+    #[serde(rename = "York")]
+    York,
+}
+
+impl FitMethod {
+    /// The name used in reports.
+    pub fn name(&self) -> &'static str {
+        match self {
+            FitMethod::OrdinaryLeastSquares => "ordinary least squares",
+            FitMethod::WeightedLeastSquares => "weighted least squares",
+            FitMethod::York => "York",
+        }
+    }
+}
+
+impl std::fmt::Display for FitMethod {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+impl PartialEq<&str> for FitMethod {
+    fn eq(&self, other: &&str) -> bool {
+        self.name() == *other
+    }
+}
+
 /// The result of a fit.
 #[derive(Clone, Debug, Serialize)]
 pub struct FitResult {
-    /// "ordinary least squares", "weighted least squares", "York".
-    pub method: String,
+    pub method: FitMethod,
     pub parameters: Vec<Parameter>,
     pub covariance: Vec<Vec<f64>>,
     pub correlation: Vec<Vec<f64>>,

@@ -165,9 +165,9 @@ fn finish(
     };
     FitResult {
         method: if weighted {
-            "weighted least squares".into()
+            crate::FitMethod::WeightedLeastSquares
         } else {
-            "ordinary least squares".into()
+            crate::FitMethod::OrdinaryLeastSquares
         },
         parameters: names
             .into_iter()

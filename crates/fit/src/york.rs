@@ -109,7 +109,7 @@ pub fn fit_york(
         })
         .collect();
     Ok(FitResult {
-        method: "York".into(),
+        method: crate::FitMethod::York,
         parameters: vec![
             Parameter {
                 name: "intercept".into(),
