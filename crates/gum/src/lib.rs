@@ -36,6 +36,7 @@ pub mod conformity;
 pub mod constants;
 pub mod coverage;
 pub mod dimensions;
+pub mod distributions;
 pub mod limits;
 mod load;
 pub mod matrix;

@@ -168,7 +168,7 @@ pub struct MeasurandResult {
     pub correlation_terms: f64,
     pub correlation_budget: Vec<CorrelationLine>,
     /// Filled by propagation of distributions when it is run.
-    pub monte_carlo: Option<serde_json::Value>,
+    pub monte_carlo: Option<crate::distributions::McMeasurand>,
     /// Conformity assessment (JCGM 106:2012) when the measurand has a
     /// specification.
     pub conformity: Option<crate::conformity::Conformity>,

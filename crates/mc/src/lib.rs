@@ -81,44 +81,7 @@ impl Default for Settings {
 #[error("{0}")]
 pub struct McError(pub String);
 
-/// Validation of the first-order result (JCGM 101:2008, 8.2).
-#[derive(Clone, Debug, Serialize)]
-pub struct Validation {
-    /// δ from the first-order u_c(y) and ndig (7.9.2).
-    pub numerical_tolerance: f64,
-    pub ndig: u32,
-    /// |y − U_p − y_low|.
-    pub d_low: f64,
-    /// |y + U_p − y_high|.
-    pub d_high: f64,
-    pub passed: bool,
-}
-
-/// The Monte Carlo result for one measurand (the `monte_carlo` object of
-/// the JSON report).
-#[derive(Clone, Debug, Serialize)]
-pub struct McMeasurand {
-    pub name: String,
-    /// Trials used (after dropping non-finite ones, if that was asked).
-    pub trials: usize,
-    pub seed: u64,
-    pub value: f64,
-    pub standard_uncertainty: f64,
-    pub coverage_probability: f64,
-    pub symmetric_interval: [f64; 2],
-    pub shortest_interval: [f64; 2],
-    pub validation: Validation,
-    pub non_finite_dropped: usize,
-    pub histogram: Histogram,
-    /// Trials inside the tolerance interval, when the measurand has a
-    /// specification (the fraction of trials, as JCGM 101:2008 does for coverage).
-    pub conformance: Option<incertus_gum::conformity::McConformance>,
-    /// When Type A inputs or fit parameters are sampled as scaled and
-    /// shifted t distributions (JCGM 101:2008, 6.4.9), the ratio of variances
-    /// u²(MC)/u²(first order) this alone leads to, Σ share_i · ν_i/(ν_i − 2)
-    /// over the budget (correlation terms left out); `None` when it is 1.
-    pub t_sampling_variance_ratio: Option<f64>,
-}
+pub use incertus_gum::distributions::{McMeasurand, Validation};
 
 /// Adaptive-procedure bookkeeping (JCGM 101:2008, 7.9).
 #[derive(Clone, Debug, Serialize)]
@@ -785,7 +748,7 @@ pub fn attach(model: &Model, report: &mut Report, mc: &McReport) {
         .zip(&mc.results)
         .zip(&model.measurands)
     {
-        r.monte_carlo = Some(serde_json::to_value(m).expect("plain data"));
+        r.monte_carlo = Some(m.clone());
         if !m.validation.passed {
             // JCGM 101:2008, 8.2: the first-order result is not validated, so
             // the Monte Carlo result is the reported one, everywhere.

@@ -132,17 +132,9 @@ pub fn shortest_interval(sorted: &[f64], p: f64) -> [f64; 2] {
     [sorted[best.1], sorted[best.1 + q]]
 }
 
-/// Histogram counts over `bins` equal bins between two quantiles (the
-/// 0.05 % and 99.95 % points, so that a few extreme trials do not squash
-/// the picture); values outside are counted separately.
-#[derive(Clone, Debug, serde::Serialize)]
-pub struct Histogram {
-    pub edges: Vec<f64>,
-    pub counts: Vec<u64>,
-    pub below: u64,
-    pub above: u64,
-}
+pub use incertus_gum::distributions::Histogram;
 
+/// The histogram of sorted trials (see [`Histogram`]).
 pub fn histogram(sorted: &[f64], bins: usize) -> Histogram {
     let m = sorted.len();
     let lo = sorted[((m as f64 * 0.0005) as usize).min(m - 1)];
