@@ -633,7 +633,7 @@ impl Shell {
                     incertus_gum::rounding::significant(m.symmetric_interval[1], 6),
                     incertus_gum::rounding::significant(m.shortest_interval[0], 6),
                     incertus_gum::rounding::significant(m.shortest_interval[1], 6),
-                    if m.validation.passed { "validated" } else { "not validated" }
+                    if m.validation.passed { "validated" } else { "NOT validated (JCGM 101:2008, 8.2): the Monte Carlo result is the one to report" }
                 ));
             }
             Err(e) => self.say(format!("error: {e}")),
