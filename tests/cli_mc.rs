@@ -222,7 +222,7 @@ fn a_result_not_validated_is_replaced_by_the_monte_carlo_one_everywhere() {
     assert_eq!(r["reported"]["method"], "monte_carlo");
     // |a − b| of two N(2, 0.1²): the half-normal with σ = 0.1√2; Pr(≤ 0.2) = erf(1) = 0.8427.
     let pc = r["conformity"]["conformance_probability"].as_f64().unwrap();
-    assert!((pc - 0.842_700_79).abs() < 0.005, "{pc}"); // erf(1), Abramowitz and Stegun table 7.1
+    assert!((pc - 0.842_700_79).abs() < 0.005, "{pc}"); // erf(1), Abramowitz and Stegun table 7.1 (value recalled from memory; Python's math.erf agrees)
     let mean = r["reported"]["value"].as_f64().unwrap();
     // E|a − b| = σ√(2/π) with σ = 0.1√2: 0.1128
     assert!(
@@ -275,4 +275,23 @@ fn a_disagreeing_monte_carlo_conformance_probability_is_never_silent() {
         out.contains("which disagrees with this first-order figure"),
         "{out}"
     );
+    // The Monte Carlo p_c itself against the exact Φ(1.908902) = 0.971863
+    // (Python's math.erfc, an independent libm), within four standard uncertainties.
+    let (_, json, _) = incertus(&[
+        "eval",
+        p.to_str().unwrap(),
+        "--mc",
+        "1000000",
+        "--ndig",
+        "1",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap();
+    let m = &v["results"][0]["conformity"]["monte_carlo"];
+    let (pc, u) = (
+        m["conformance_probability"].as_f64().unwrap(),
+        m["standard_uncertainty"].as_f64().unwrap(),
+    );
+    assert!((pc - 0.971_863).abs() < 4.0 * u + 2e-5, "{pc} ± {u}");
 }
