@@ -397,4 +397,24 @@ mod tests {
         assert_eq!(Decimal::of(5e-324).leading(), Some(-324));
         assert_eq!(Decimal::of(1.01).round_at(-1, true).text(0), "1.1");
     }
+
+    #[test]
+    fn any_bit_pattern_writes_without_panic() {
+        // common practice, no published source: every f64, NaN, ±inf and subnormals included.
+        let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
+        let mut next = || {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            f64::from_bits(x)
+        };
+        for _ in 0..200_000 {
+            let (y, u) = (next(), next());
+            for digits in 1..=3 {
+                let w = write(y, u.abs(), digits);
+                assert!(!w.concise.is_empty());
+                let _ = write_like(next(), &w);
+            }
+        }
+    }
 }
