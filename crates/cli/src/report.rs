@@ -147,6 +147,15 @@ fn unit_suffix(r: &MeasurandResult) -> String {
     r.unit.as_ref().map(|u| format!(" {u}")).unwrap_or_default()
 }
 
+/// The line stating the rounding rule under a result.
+fn rounding_line(style: Style) -> String {
+    format!(
+        "         rounded to {} significant digit{} of the uncertainty, the estimate to the same place (JCGM 100:2008, 7.2.6)",
+        style.digits,
+        if style.digits == 1 { "" } else { "s" }
+    )
+}
+
 /// The lines stating a result, shared by text and Markdown.
 fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<String> {
     let unit = unit_suffix(r);
@@ -235,11 +244,7 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
             "         reported by Monte Carlo because {}",
             rep.why
         ));
-        lines.push(format!(
-            "         rounded to {} significant digit{} of the uncertainty, the estimate to the same place (JCGM 100:2008, 7.2.6)",
-            style.digits,
-            if style.digits == 1 { "" } else { "s" }
-        ));
+        lines.push(rounding_line(style));
         lines.push(format!(
             "first-order result (not validated, not the reported result): {name} = {}{unit}, {}{unit}",
             wu.concise, wbig.plus_minus
@@ -267,11 +272,7 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
             (_, Some(used)) => format!("ν_eff = {}", significant(used, 4)),
         }
     ));
-    lines.push(format!(
-        "         rounded to {} significant digit{} of the uncertainty, the estimate to the same place (JCGM 100:2008, 7.2.6)",
-        style.digits,
-        if style.digits == 1 { "" } else { "s" }
-    ));
+    lines.push(rounding_line(style));
     for w in &r.warnings {
         lines.push(format!("WARNING  {w}"));
     }

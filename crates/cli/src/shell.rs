@@ -307,6 +307,27 @@ fn show(name: &str, value: f64, u: f64, unit: Option<&str>) -> String {
     )
 }
 
+/// A result as `show` writes it, with its warnings below; a zero
+/// first-order u that a warning questions is not called exact.
+fn show_result(name: &str, r: &incertus_gum::MeasurandResult) -> String {
+    let mut s = if r.standard_uncertainty == 0.0 && !r.warnings.is_empty() {
+        format!(
+            "{name} = {}{}  (first-order u = 0, not exact: see the warning)",
+            incertus_gum::rounding::significant(r.value, 10),
+            r.unit
+                .as_deref()
+                .map(|u| format!(" {u}"))
+                .unwrap_or_default()
+        )
+    } else {
+        show(name, r.value, r.standard_uncertainty, r.unit.as_deref())
+    };
+    for w in &r.warnings {
+        s.push_str(&format!("\n  WARNING  {w}"));
+    }
+    s
+}
+
 struct Shell {
     state: State,
     out: Vec<String>,
@@ -340,16 +361,11 @@ impl Shell {
     }
 
     fn result_line(&self, report: &Report, name: &str) -> Option<String> {
-        report.results.iter().find(|r| r.name == name).map(|r| {
-            let mut s = show(&r.name, r.value, r.standard_uncertainty, r.unit.as_deref());
-            if !r.warnings.is_empty() {
-                s = s.replace("(exact)", "(first-order u = 0, not exact: see the warning)");
-            }
-            for w in &r.warnings {
-                s.push_str(&format!("\n  WARNING  {w}"));
-            }
-            s
-        })
+        report
+            .results
+            .iter()
+            .find(|r| r.name == name)
+            .map(|r| show_result(&r.name, r))
     }
 
     /// Run one line; `false` to end the session.
@@ -399,13 +415,7 @@ impl Shell {
                     .iter()
                     .find(|r| r.name == "_")
                     .expect("added above");
-                let mut s = show("", r.value, r.standard_uncertainty, r.unit.as_deref());
-                if !r.warnings.is_empty() {
-                    s = s.replace("(exact)", "(first-order u = 0, not exact: see the warning)");
-                }
-                for w in &r.warnings {
-                    s.push_str(&format!("\n  WARNING  {w}"));
-                }
+                let s = show_result("", r);
                 self.say(s.trim_start_matches(" = ").to_string());
             }
             Err(e) => self.say(format!("error: {e}")),

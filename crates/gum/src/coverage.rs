@@ -156,7 +156,7 @@ pub fn effective_dof_correlated(
     // block are dependent.
     let mut var = 0.0;
     let mut partners: Vec<usize> = Vec::new();
-    for (t1, &(c1, a1, b1)) in terms.iter().enumerate() {
+    for &(c1, a1, b1) in &terms {
         partners.clear();
         for blk in [a1, b1] {
             if random(blk) {
@@ -170,7 +170,6 @@ pub fn effective_dof_correlated(
             let (c2, a2, b2) = terms[t2];
             var += c1 * c2 * (expect(&mut [a1, b1, a2, b2]) - e1 * expect(&mut [a2, b2]));
         }
-        let _ = t1;
     }
     if var <= 0.0 {
         None

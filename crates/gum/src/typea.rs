@@ -20,16 +20,22 @@ pub fn sum(xs: impl IntoIterator<Item = f64>) -> f64 {
     s + c
 }
 
-/// A power of two near the largest magnitude of `q` (1 for an empty or
-/// all-zero series): dividing by it is exact, and it keeps sums and squares
-/// of observations near 1e-300 or 1e300 from under- or overflowing.
-fn scale_of(q: &[f64]) -> f64 {
-    let m = q.iter().fold(0.0f64, |a, x| a.max(x.abs()));
-    if m == 0.0 || !m.is_finite() {
+/// A power of two near |x| (1 for 0 or a value that is not finite), kept
+/// within 2^±1000 so that its reciprocal is finite too: dividing by it is
+/// exact, and it keeps sums and squares of values near 1e-300 or 1e300
+/// from under- or overflowing. Used by the Type A statistics here and the
+/// Monte Carlo moments.
+pub fn power_of_two_near(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
         1.0
     } else {
-        2f64.powi(m.log2().floor() as i32)
+        2f64.powi((x.abs().log2().floor() as i32).clamp(-1000, 1000))
     }
+}
+
+/// A power of two near the largest magnitude of `q`.
+fn scale_of(q: &[f64]) -> f64 {
+    power_of_two_near(q.iter().fold(0.0f64, |a, x| a.max(x.abs())))
 }
 
 fn scaled(q: &[f64], s: f64) -> Vec<f64> {

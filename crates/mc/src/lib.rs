@@ -22,6 +22,7 @@ pub mod stats;
 
 use incertus_expr::Tape;
 use incertus_gum::propagate::{expanded_formulas, NamedMatrix};
+use incertus_gum::typea::power_of_two_near;
 use incertus_gum::{Model, Report};
 use rand::SeedableRng;
 use rayon::prelude::*;
@@ -161,16 +162,6 @@ struct Engine<'a> {
     /// SI): co-moments are summed in these units, so trials near 1e307 or
     /// 1e-307 neither overflow nor underflow.
     scales: Vec<f64>,
-}
-
-/// A power of two near |x| (1 for 0 or a value that is not finite).
-fn power_of_two_near(x: f64) -> f64 {
-    if x == 0.0 || !x.is_finite() {
-        1.0
-    } else {
-        // Kept within 2^±1000 so that its reciprocal is finite too.
-        2f64.powi((x.abs().log2().floor() as i32).clamp(-1000, 1000))
-    }
 }
 
 /// Counts, means and co-moments of the measurands over a set of trials
@@ -625,10 +616,12 @@ fn run_in_pool(
             };
         }
     }
-    let t_factors: std::collections::HashMap<usize, f64> = engine
+    // By input name, as the budget lines name their inputs.
+    let t_factors: std::collections::HashMap<&str, f64> = engine
         .groups
         .iter()
         .flat_map(sample::Group::t_variance_factors)
+        .map(|(i, f)| (model.inputs[i].name.as_str(), f))
         .collect();
     let mut results = Vec::with_capacity(m);
     for (j, o) in outs.iter_mut().enumerate() {
@@ -664,15 +657,7 @@ fn run_in_pool(
             let ratio: f64 = g
                 .budget
                 .iter()
-                .map(|b| {
-                    let i = model
-                        .inputs
-                        .iter()
-                        .position(|x| x.name == b.input)
-                        .expect("budget lines name inputs");
-                    let f = t_factors.get(&i).copied().unwrap_or(1.0);
-                    b.share * f
-                })
+                .map(|b| b.share * t_factors.get(b.input.as_str()).copied().unwrap_or(1.0))
                 .sum();
             // Stated from 1 % in variance (0.5 % in u) on.
             (share > 0.0 && ratio / share > 1.01).then(|| ratio / share)

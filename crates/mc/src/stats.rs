@@ -75,12 +75,9 @@ pub fn std_dev(v: &[f64], mean: f64) -> f64 {
     }
     // Deviations divided by a power of two near the largest, so that
     // values near 1e307 do not overflow when squared.
-    let big = v.iter().fold(0.0f64, |m, x| m.max((x - mean).abs()));
-    let s = if big > 0.0 && big.is_finite() {
-        2f64.powi(big.log2().floor() as i32)
-    } else {
-        1.0
-    };
+    let s = incertus_gum::typea::power_of_two_near(
+        v.iter().fold(0.0f64, |m, x| m.max((x - mean).abs())),
+    );
     s * (chunked_sum(v, |x| ((x - mean) / s) * ((x - mean) / s)) / (v.len() - 1) as f64).sqrt()
 }
 
