@@ -64,7 +64,28 @@ fn walk<E: Env<f64> + ?Sized>(e: &Expr, env: &E, out: &mut Vec<NonSmooth>) {
     };
     match &e.kind {
         Kind::Call(f, args) => {
-            let a: Vec<Option<f64>> = args.iter().map(value).collect();
+            // Only the functions with such points need their arguments' values.
+            let relevant = !matches!(
+                f,
+                Func::Exp
+                    | Func::Ln
+                    | Func::Log10
+                    | Func::Log2
+                    | Func::Sin
+                    | Func::Cos
+                    | Func::Tan
+                    | Func::Atan
+                    | Func::Sinh
+                    | Func::Cosh
+                    | Func::Tanh
+                    | Func::Asinh
+                    | Func::Atanh
+            );
+            let a: Vec<Option<f64>> = if relevant {
+                args.iter().map(value).collect()
+            } else {
+                Vec::new()
+            };
             match (f, a.as_slice()) {
                 (Func::Abs, [Some(x)]) if *x == 0.0 => found(
                     "abs",

@@ -475,7 +475,7 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         warnings.extend(near_kinks(model, f, &input_env, &m.name));
         let mut c = vec![0.0; n];
         let mut formulas = vec![String::new(); n];
-        let mut flat_everywhere = vec![false; n];
+        let mut derivatives: Vec<Option<Expr>> = vec![None; n];
         let mut used = Vec::new();
         for i in 0..n {
             let name = &model.inputs[i].name;
@@ -501,10 +501,8 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 .at(m.line)
             })?;
             c[i] = ci;
-            // A derivative that simplifies to 0 is zero everywhere (`q - x*y`
-            // with q = x*y): the input does not really enter the result.
-            flat_everywhere[i] = matches!(simplify(&d).kind, Kind::Num(v) if v == 0.0);
             formulas[i] = print(&d);
+            derivatives[i] = Some(d);
             used.push(i);
         }
 
@@ -662,11 +660,22 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         }
 
         let u_for_expanded = second.unwrap_or(uc);
-        let uncertain: Vec<&str> = used
-            .iter()
-            .filter(|&&i| u[i] > 0.0 && !flat_everywhere[i])
-            .map(|&i| model.inputs[i].name.as_str())
-            .collect();
+        // Only when u is 0: the inputs whose derivative is not zero everywhere
+        // (one that simplifies to 0, as in `q - x*y` with q = x*y, means the
+        // input does not really enter the result).
+        let uncertain: Vec<&str> = if u_for_expanded == 0.0 {
+            used.iter()
+                .filter(|&&i| u[i] > 0.0)
+                .filter(|&&i| {
+                    derivatives[i]
+                        .as_ref()
+                        .is_some_and(|d| !matches!(simplify(d).kind, Kind::Num(v) if v == 0.0))
+                })
+                .map(|&i| model.inputs[i].name.as_str())
+                .collect()
+        } else {
+            Vec::new()
+        };
         if u_for_expanded == 0.0 && !uncertain.is_empty() {
             warnings.push(format!(
                 "the first-order standard uncertainty of `{}` is 0 although uncertain inputs enter \
