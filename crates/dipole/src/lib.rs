@@ -46,6 +46,10 @@
 
 use std::path::Path;
 
+use incertus_gum::description::{
+    FitData, FitDescription, InputDescription, InputEvaluation, MeasurandDescription,
+    ModelDescription,
+};
 use serde::Deserialize;
 
 /// A quantity with its standard uncertainty and unit.
@@ -83,111 +87,168 @@ pub struct Problem {
     pub approximate_n_gradient: bool,
 }
 
-fn q_keys(q: &Quantity) -> String {
-    let mut s = format!(
-        "value = {:?}\nstandard_uncertainty = {:?}\n",
-        q.value, q.standard_uncertainty
+fn input(name: &str, description: &str, q: &Quantity) -> InputDescription {
+    let mut i = InputDescription::standard(name, q.value, q.standard_uncertainty);
+    i.description = Some(description.to_string());
+    i.unit = q.unit.clone();
+    i
+}
+
+fn fitted(name: &str, description: &str, fit: &str) -> InputDescription {
+    let mut i = InputDescription::new(
+        name,
+        InputEvaluation::FitParameter {
+            fit: fit.to_string(),
+            parameter: "slope".to_string(),
+        },
     );
-    if let Some(u) = &q.unit {
-        s.push_str(&format!("unit = {}\n", incertus_gum::builder::text(u)));
+    i.description = Some(description.to_string());
+    i
+}
+
+fn constant(name: &str) -> InputDescription {
+    InputDescription::new(
+        name,
+        InputEvaluation::Constant {
+            name: name.to_string(),
+        },
+    )
+}
+
+fn measurand(
+    name: &str,
+    description: &str,
+    formula: &str,
+    unit: Option<&str>,
+) -> MeasurandDescription {
+    let mut m = MeasurandDescription::new(name, formula);
+    m.description = Some(description.to_string());
+    m.unit = unit.map(str::to_string);
+    m
+}
+
+/// A straight line through the series, with the problem's exclusions.
+fn line(p: &Problem, name: &str, y: Vec<f64>) -> FitDescription {
+    FitDescription {
+        name: name.to_string(),
+        description: None,
+        data: FitData::Inline {
+            x: p.w2.clone(),
+            y,
+            y_uncertainty: None,
+            x_uncertainty: None,
+        },
+        degree: 1,
+        exclude: p.exclude.clone(),
+        exclude_reason: (!p.exclude.is_empty()).then(|| {
+            p.exclude_reason
+                .clone()
+                .unwrap_or_else(|| "excluded".into())
+        }),
+        scale_by_chi_squared: false,
+        x_unit: None,
+        y_unit: None,
     }
-    s
 }
 
-fn list(v: &[f64]) -> String {
-    format!(
-        "[{}]",
-        v.iter()
-            .map(|x| format!("{x:?}"))
-            .collect::<Vec<_>>()
-            .join(", ")
-    )
-}
-
-/// The measurement model of the problem as a model file for the law of
-/// propagation (two inline fits, the inputs, the constants, μ in debye).
-pub fn model_text(p: &Problem) -> String {
-    let exclude = if p.exclude.is_empty() {
-        String::new()
-    } else {
-        format!(
-            "exclude = [{}]\nexclude_reason = {}\n",
-            p.exclude
-                .iter()
-                .map(|r| r.to_string())
-                .collect::<Vec<_>>()
-                .join(", "),
-            incertus_gum::builder::text(p.exclude_reason.as_deref().unwrap_or("excluded"))
-        )
+/// The measurement model of the problem as a description (two fits of the
+/// series, the inputs, the constants, μ in debye), built without text.
+pub fn model_description(p: &Problem) -> ModelDescription {
+    let mut d = ModelDescription {
+        title: Some(p.title.clone()),
+        ..ModelDescription::default()
     };
-    let hk = match (&p.density12, &p.solvent_refractive_index) {
-        (Some(rho), Some(n1)) => {
-            // Specific volumes in m³/kg from densities in the solvent's unit.
-            let f = p
-                .solvent_density
-                .unit
-                .as_deref()
-                .and_then(incertus_gum::units_factor)
-                .unwrap_or(1.0);
-            let v: Vec<f64> = rho.iter().map(|r| 1.0 / (r * f)).collect();
-            format!(
-                "[fits.volume]\nx = {w}\ny = {v}\nx_unit = \"1\"\ny_unit = \"m^3/kg\"\n{exclude}\n\
-                 [inputs.beta]\ndescription = \"gradient of the specific volume of the solutions against w2\"\nfit = \"volume\"\nparameter = \"slope\"\n\n\
-                 [inputs.n1]\ndescription = \"refractive index of the solvent\"\n{n1}\n\
-                 [[measurands]]\nname = \"mu_hk\"\nunit = \"D\"\ndescription = \"electric dipole moment of the solute (Halverstadt-Kumler)\"\n\
-                 formula = \"sqrt(9*epsilon_0*k_B*T/N_A*(3*a_eps*M2/(rho1*(eps1 + 2)^2) + (1/rho1 + beta)*(eps1 - 1)/(eps1 + 2)*M2 - 3*a_n*M2/(rho1*(n1^2 + 2)^2) - (1/rho1 + beta)*(n1^2 - 1)/(n1^2 + 2)*M2))\"\n",
-                w = list(&p.w2),
-                v = list(&v),
-                exclude = exclude,
-                n1 = q_keys(n1),
-            )
+    let n_series: Vec<f64> = if p.approximate_n_gradient {
+        p.n12_squared.iter().map(|v| v.sqrt()).collect()
+    } else {
+        p.n12_squared.clone()
+    };
+    d.fits.push(line(p, "permittivity", p.eps12.clone()));
+    d.fits.push(line(p, "refraction", n_series));
+    d.inputs.push(fitted(
+        "a_eps",
+        "gradient of the solution permittivity against w2",
+        "permittivity",
+    ));
+    let n1 = |d: &mut ModelDescription| {
+        if d.input("n1").is_none() {
+            if let Some(q) = &p.solvent_refractive_index {
+                d.inputs
+                    .push(input("n1", "refractive index of the solvent", q));
+            }
         }
-        _ => String::new(),
     };
-    let (n_series, a_n) = if p.approximate_n_gradient {
-        let n1 = p
-            .solvent_refractive_index
-            .as_ref()
-            .map(q_keys)
-            .unwrap_or_default();
-        (
-            p.n12_squared.iter().map(|v| v.sqrt()).collect::<Vec<f64>>(),
-            format!(
-                "[inputs.dn]\ndescription = \"gradient of the refractive index against w2\"\nfit = \"refraction\"\nparameter = \"slope\"\n\n\
-                 [inputs.n1]\ndescription = \"refractive index of the solvent\"\n{n1}\n\
-                 [[measurands]]\nname = \"a_n\"\ndescription = \"a_n approximated by 2 n1 dn/dw2 (on request)\"\nformula = \"2*n1*dn\"\n\n"
-            ),
-        )
+    if p.approximate_n_gradient {
+        d.inputs.push(fitted(
+            "dn",
+            "gradient of the refractive index against w2",
+            "refraction",
+        ));
+        n1(&mut d);
+        d.measurands.push(measurand(
+            "a_n",
+            "a_n approximated by 2 n1 dn/dw2 (on request)",
+            "2*n1*dn",
+            None,
+        ));
     } else {
-        (
-            p.n12_squared.clone(),
-            "[inputs.a_n]\ndescription = \"gradient of the squared refractive index against w2\"\nfit = \"refraction\"\nparameter = \"slope\"\n\n".to_string(),
-        )
-    };
-    format!(
-        "title = {title}\n\n\
-         [fits.permittivity]\nx = {w}\ny = {e}\n{exclude}\n\
-         [fits.refraction]\nx = {w}\ny = {n}\n{exclude}\n\
-         [inputs.a_eps]\ndescription = \"gradient of the solution permittivity against w2\"\nfit = \"permittivity\"\nparameter = \"slope\"\n\n\
-         {a_n}\
-         [inputs.eps1]\ndescription = \"relative permittivity of the solvent\"\n{eps1}\n\
-         [inputs.rho1]\ndescription = \"density of the solvent\"\n{rho1}\n\
-         [inputs.M2]\ndescription = \"molar mass of the solute\"\n{m2}\n\
-         [inputs.T]\ndescription = \"temperature of the solutions\"\n{t}\n\
-         [inputs.epsilon_0]\nconstant = \"epsilon_0\"\n\n[inputs.k_B]\nconstant = \"k_B\"\n\n[inputs.N_A]\nconstant = \"N_A\"\n\n\
-         [[measurands]]\nname = \"mu\"\nunit = \"D\"\ndescription = \"electric dipole moment of the solute (Guggenheim-Smith)\"\n\
-         formula = \"sqrt(27*epsilon_0*k_B*T*M2*(a_eps - a_n)/(N_A*rho1*(eps1 + 2)^2))\"\n\n{hk}",
-        title = incertus_gum::builder::text(&p.title),
-        w = list(&p.w2),
-        e = list(&p.eps12),
-        n = list(&n_series),
-        a_n = a_n,
-        eps1 = q_keys(&p.solvent_permittivity),
-        rho1 = q_keys(&p.solvent_density),
-        m2 = q_keys(&p.molar_mass),
-        t = q_keys(&p.temperature),
-        hk = hk,
-    )
+        d.inputs.push(fitted(
+            "a_n",
+            "gradient of the squared refractive index against w2",
+            "refraction",
+        ));
+    }
+    d.inputs.push(input(
+        "eps1",
+        "relative permittivity of the solvent",
+        &p.solvent_permittivity,
+    ));
+    d.inputs
+        .push(input("rho1", "density of the solvent", &p.solvent_density));
+    d.inputs
+        .push(input("M2", "molar mass of the solute", &p.molar_mass));
+    d.inputs
+        .push(input("T", "temperature of the solutions", &p.temperature));
+    for c in ["epsilon_0", "k_B", "N_A"] {
+        d.inputs.push(constant(c));
+    }
+    d.measurands.push(measurand(
+        "mu",
+        "electric dipole moment of the solute (Guggenheim-Smith)",
+        "sqrt(27*epsilon_0*k_B*T*M2*(a_eps - a_n)/(N_A*rho1*(eps1 + 2)^2))",
+        Some("D"),
+    ));
+    if let (Some(rho), Some(_)) = (&p.density12, &p.solvent_refractive_index) {
+        // Specific volumes in m³/kg from densities in the solvent's unit.
+        let f = p
+            .solvent_density
+            .unit
+            .as_deref()
+            .and_then(incertus_gum::units_factor)
+            .unwrap_or(1.0);
+        let mut volume = line(p, "volume", rho.iter().map(|r| 1.0 / (r * f)).collect());
+        volume.x_unit = Some("1".into());
+        volume.y_unit = Some("m^3/kg".into());
+        d.fits.push(volume);
+        d.inputs.push(fitted(
+            "beta",
+            "gradient of the specific volume of the solutions against w2",
+            "volume",
+        ));
+        n1(&mut d);
+        d.measurands.push(measurand(
+            "mu_hk",
+            "electric dipole moment of the solute (Halverstadt-Kumler)",
+            "sqrt(9*epsilon_0*k_B*T/N_A*(3*a_eps*M2/(rho1*(eps1 + 2)^2) + (1/rho1 + beta)*(eps1 - 1)/(eps1 + 2)*M2 - 3*a_n*M2/(rho1*(n1^2 + 2)^2) - (1/rho1 + beta)*(n1^2 - 1)/(n1^2 + 2)*M2))",
+            Some("D"),
+        ));
+    }
+    d
+}
+
+/// The model as a model file (the description serialised).
+pub fn model_text(p: &Problem) -> String {
+    model_description(p).to_toml()
 }
 
 /// The model, checked: errors for what makes the method meaningless,
@@ -216,8 +277,7 @@ pub fn build(p: &Problem) -> Result<Checked, String> {
             ));
         }
     }
-    let model =
-        incertus_gum::load_str(&model_text(p), "<dipole model>").map_err(|e| e.to_string())?;
+    let model = model_description(p).validate().map_err(|e| e.to_string())?;
     let slope = |name: &str| {
         model
             .input(name)

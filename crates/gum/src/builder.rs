@@ -1,7 +1,9 @@
-//! Building a model in Rust. The builder writes the model file text and
-//! loads it with the same loader as `incertus eval`, so a model built here
-//! is checked exactly as a file would be, and [`ModelBuilder::to_toml`]
-//! gives the file that reproduces it.
+//! Building a model in Rust. The builder fills a
+//! [`ModelDescription`](crate::description::ModelDescription) — no model-file
+//! text is written — and validates it with the same step as the loader, so a
+//! model built here is checked exactly as a file would be, and
+//! [`ModelBuilder::to_toml`] gives the file that reproduces it. Errors name
+//! the key path (`inputs.α.standard_uncertainty`).
 //!
 //! ```
 //! use incertus_gum::builder::ModelBuilder;
@@ -17,125 +19,170 @@
 //! assert!((r.results[0].value - 0.1).abs() < 1e-15);
 //! ```
 
-use crate::load::{load_str, ModelError};
+use crate::description::*;
+use crate::load::ModelError;
 use crate::model::Model;
 
-/// One input being described.
+/// One input being described: the last evaluation given wins.
 #[derive(Clone, Debug, Default)]
 pub struct InputBuilder {
-    keys: Vec<(String, String)>,
+    value: Option<f64>,
+    uncertainty: Option<Uncertainty>,
+    dof: Option<f64>,
+    unit: Option<String>,
+    description: Option<String>,
 }
 
-fn num(v: f64) -> String {
-    let s = format!("{v:?}");
-    if s.contains(['.', 'e', 'E', 'i', 'N']) {
-        s
-    } else {
-        format!("{s}.0")
-    }
-}
-
-/// A TOML basic string (quoted and escaped).
-pub fn text(s: &str) -> String {
-    let mut out = String::from("\"");
-    for c in s.chars() {
-        match c {
-            '"' => out.push_str("\\\""),
-            '\\' => out.push_str("\\\\"),
-            c if (c as u32) < 0x20 || c == '\u{7f}' => {
-                out.push_str(&format!("\\u{:04X}", c as u32))
-            }
-            c => out.push(c),
-        }
-    }
-    out.push('"');
-    out
+#[derive(Clone, Debug)]
+enum Uncertainty {
+    Standard(f64),
+    Expanded(f64, f64),
+    Limits(LimitShape, f64),
+    Observations(Vec<f64>),
+    Constant(String),
 }
 
 impl InputBuilder {
-    fn set(mut self, k: &str, v: String) -> Self {
-        self.keys.retain(|(key, _)| key != k);
-        self.keys.push((k.to_string(), v));
+    /// The estimate.
+    pub fn value(mut self, v: f64) -> Self {
+        self.value = Some(v);
         self
     }
-    pub fn value(self, v: f64) -> Self {
-        self.set("value", num(v))
+    /// The standard uncertainty (normal unless dof are given).
+    pub fn standard_uncertainty(mut self, u: f64) -> Self {
+        self.uncertainty = Some(Uncertainty::Standard(u));
+        self
     }
-    pub fn standard_uncertainty(self, u: f64) -> Self {
-        self.set("standard_uncertainty", num(u))
+    /// Degrees of freedom of a Type B evaluation.
+    pub fn dof(mut self, d: f64) -> Self {
+        self.dof = Some(d);
+        self
     }
-    pub fn dof(self, d: f64) -> Self {
-        self.set("dof", num(d))
+    /// An expanded uncertainty U with its coverage factor k (u = U/k).
+    pub fn expanded(mut self, big_u: f64, k: f64) -> Self {
+        self.uncertainty = Some(Uncertainty::Expanded(big_u, k));
+        self
     }
-    pub fn expanded(self, big_u: f64, k: f64) -> Self {
-        self.set("expanded_uncertainty", num(big_u))
-            .set("coverage_factor", num(k))
+    /// A rectangular distribution of half-width a around the value.
+    pub fn rectangular(mut self, half_width: f64) -> Self {
+        self.uncertainty = Some(Uncertainty::Limits(LimitShape::Rectangular, half_width));
+        self
     }
-    pub fn rectangular(self, half_width: f64) -> Self {
-        self.set("distribution", text("rectangular"))
-            .set("half_width", num(half_width))
+    /// A triangular distribution of half-width a around the value.
+    pub fn triangular(mut self, half_width: f64) -> Self {
+        self.uncertainty = Some(Uncertainty::Limits(LimitShape::Triangular, half_width));
+        self
     }
-    pub fn triangular(self, half_width: f64) -> Self {
-        self.set("distribution", text("triangular"))
-            .set("half_width", num(half_width))
+    /// An arc-sine distribution of half-width a around the value.
+    pub fn arcsine(mut self, half_width: f64) -> Self {
+        self.uncertainty = Some(Uncertainty::Limits(LimitShape::Arcsine, half_width));
+        self
     }
-    pub fn arcsine(self, half_width: f64) -> Self {
-        self.set("distribution", text("arcsine"))
-            .set("half_width", num(half_width))
+    /// A series of observations (Type A).
+    pub fn observations(mut self, obs: &[f64]) -> Self {
+        self.uncertainty = Some(Uncertainty::Observations(obs.to_vec()));
+        self
     }
-    pub fn observations(self, obs: &[f64]) -> Self {
-        let list: Vec<String> = obs.iter().map(|v| num(*v)).collect();
-        self.set("observations", format!("[{}]", list.join(", ")))
+    /// A constant of the built-in CODATA table.
+    pub fn constant(mut self, name: &str) -> Self {
+        self.uncertainty = Some(Uncertainty::Constant(name.to_string()));
+        self
     }
-    pub fn constant(self, name: &str) -> Self {
-        self.set("constant", text(name))
+    /// The unit the numbers are given in.
+    pub fn unit(mut self, u: &str) -> Self {
+        self.unit = Some(u.to_string());
+        self
     }
-    pub fn unit(self, u: &str) -> Self {
-        self.set("unit", text(u))
+    /// Free text for reports.
+    pub fn description(mut self, d: &str) -> Self {
+        self.description = Some(d.to_string());
+        self
     }
-    pub fn description(self, d: &str) -> Self {
-        self.set("description", text(d))
+
+    fn describe(self, name: &str) -> InputDescription {
+        let dof = self.dof.map(DofGiven::Dof);
+        let value = self.value.unwrap_or(f64::NAN);
+        let shape = CentredShape::Normal;
+        let evaluation = match self.uncertainty {
+            None => InputEvaluation::Exact { value },
+            Some(Uncertainty::Standard(u)) => InputEvaluation::Standard {
+                value,
+                standard_uncertainty: u,
+                dof,
+                shape,
+            },
+            Some(Uncertainty::Expanded(big_u, k)) => InputEvaluation::Expanded {
+                value,
+                expanded_uncertainty: big_u,
+                coverage_factor: k,
+                dof,
+                shape,
+            },
+            Some(Uncertainty::Limits(shape, a)) => InputEvaluation::Limits {
+                limits: LimitsGiven::HalfWidth {
+                    value,
+                    half_width: a,
+                },
+                shape,
+                dof,
+            },
+            Some(Uncertainty::Observations(values)) => InputEvaluation::Observations {
+                values,
+                pooled: None,
+            },
+            Some(Uncertainty::Constant(name)) => InputEvaluation::Constant { name },
+        };
+        InputDescription {
+            name: name.to_string(),
+            description: self.description,
+            unit: self.unit,
+            evaluation,
+            sensitivity: Vec::new(),
+        }
     }
 }
 
 /// A model being built.
 #[derive(Clone, Debug, Default)]
 pub struct ModelBuilder {
-    title: Option<String>,
-    coverage: Option<f64>,
-    inputs: Vec<(String, InputBuilder)>,
-    correlations: Vec<(String, String, f64)>,
-    measurands: Vec<(String, String, Option<String>)>,
-    specifications: Vec<(String, crate::conformity::Specification)>,
+    description: ModelDescription,
 }
 
 impl ModelBuilder {
+    /// An empty model.
     pub fn new() -> Self {
         ModelBuilder::default()
     }
+    /// A title for reports.
     pub fn title(mut self, t: &str) -> Self {
-        self.title = Some(t.to_string());
+        self.description.title = Some(t.to_string());
         self
     }
+    /// The coverage probability (default 0.95).
     pub fn coverage_probability(mut self, p: f64) -> Self {
-        self.coverage = Some(p);
+        self.description.settings.coverage_probability = Some(p);
         self
     }
+    /// An input, described by `f`.
     pub fn input(mut self, name: &str, f: impl FnOnce(InputBuilder) -> InputBuilder) -> Self {
-        self.inputs
-            .push((name.to_string(), f(InputBuilder::default())));
+        self.description
+            .inputs
+            .push(f(InputBuilder::default()).describe(name));
         self
     }
+    /// A stated correlation coefficient.
     pub fn correlation(mut self, a: &str, b: &str, r: f64) -> Self {
-        self.correlations.push((a.to_string(), b.to_string(), r));
+        self.description.correlations.push(CorrelationDescription {
+            inputs: [a.to_string(), b.to_string()],
+            coefficient: r,
+        });
         self
     }
+    /// A measurand with its formula and, optionally, the unit to report in.
     pub fn measurand(mut self, name: &str, formula: &str, unit: Option<&str>) -> Self {
-        self.measurands.push((
-            name.to_string(),
-            formula.to_string(),
-            unit.map(str::to_string),
-        ));
+        let mut m = MeasurandDescription::new(name, formula);
+        m.unit = unit.map(str::to_string);
+        self.description.measurands.push(m);
         self
     }
 
@@ -162,74 +209,29 @@ impl ModelBuilder {
         measurand: &str,
         spec: &crate::conformity::Specification,
     ) -> Self {
-        self.specifications
-            .push((measurand.to_string(), spec.clone()));
+        for m in self
+            .description
+            .measurands
+            .iter_mut()
+            .filter(|m| m.name == measurand)
+        {
+            m.specification = Some(spec.clone());
+        }
         self
+    }
+
+    /// The description built so far.
+    pub fn description(&self) -> &ModelDescription {
+        &self.description
     }
 
     /// The model file this builder describes.
     pub fn to_toml(&self) -> String {
-        let mut t = String::new();
-        if let Some(x) = &self.title {
-            t.push_str(&format!("title = {}\n", text(x)));
-        }
-        if let Some(p) = self.coverage {
-            t.push_str(&format!("coverage_probability = {}\n", num(p)));
-        }
-        for (name, i) in &self.inputs {
-            t.push_str(&format!("\n[inputs.{name}]\n"));
-            for (k, v) in &i.keys {
-                t.push_str(&format!("{k} = {v}\n"));
-            }
-        }
-        for (a, b, r) in &self.correlations {
-            t.push_str(&format!(
-                "\n[[correlations]]\ninputs = [{}, {}]\ncoefficient = {}\n",
-                text(a),
-                text(b),
-                num(*r)
-            ));
-        }
-        for (name, f, unit) in &self.measurands {
-            t.push_str(&format!(
-                "\n[[measurands]]\nname = {}\nformula = {}\n",
-                text(name),
-                text(f)
-            ));
-            if let Some(u) = unit {
-                t.push_str(&format!("unit = {}\n", text(u)));
-            }
-            for (_, spec) in self.specifications.iter().filter(|(m, _)| m == name) {
-                use crate::conformity::Guard;
-                t.push_str("\n[measurands.specification]\n");
-                if let Some(l) = spec.lower {
-                    t.push_str(&format!("lower = {}\n", num(l)));
-                }
-                if let Some(u) = spec.upper {
-                    t.push_str(&format!("upper = {}\n", num(u)));
-                }
-                t.push_str(&format!("rule = {}\n", text(spec.rule.name())));
-                match spec.guard {
-                    Guard::None => {}
-                    Guard::MultipleOfU(r) => t.push_str(&format!("guard_multiple = {}\n", num(r))),
-                    Guard::SpecificRisk(a) => {
-                        t.push_str(&format!("max_specific_risk = {}\n", num(a)))
-                    }
-                }
-                if let Some(p) = spec.process {
-                    t.push_str(&format!(
-                        "process_mean = {}\nprocess_standard_deviation = {}\n",
-                        num(p.mean),
-                        num(p.standard_deviation)
-                    ));
-                }
-            }
-        }
-        t
+        self.description.to_toml()
     }
 
-    /// Check and load the model, with the loader's errors.
+    /// Check the model, with the same checks as a model file's.
     pub fn build(&self) -> Result<Model, ModelError> {
-        load_str(&self.to_toml(), "<built model>")
+        self.description.validate()
     }
 }

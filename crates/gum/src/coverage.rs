@@ -8,7 +8,7 @@ pub type Dof = Option<f64>;
 
 /// How ν_eff becomes the dof used for the coverage factor (serialised
 /// "truncate", "exact").
-#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum DofRounding {
     /// To the next lower integer (JCGM 100:2008, G.4.1 and G.6.4).

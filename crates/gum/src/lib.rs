@@ -35,6 +35,7 @@ pub mod check;
 pub mod conformity;
 pub mod constants;
 pub mod coverage;
+pub mod description;
 pub mod dimensions;
 pub mod distributions;
 pub mod limits;
@@ -46,6 +47,7 @@ pub mod offsets;
 pub mod propagate;
 pub mod rounding;
 pub mod typea;
+mod validate;
 
 pub use check::{check, CheckItem, CheckReport};
 

@@ -7,15 +7,28 @@ use super::*;
 pub(super) struct Doc<'a> {
     pub(super) src: &'a str,
     pub(super) file: &'a str,
+    /// Where each key path stood, for the errors of validation.
+    pub(super) places: std::cell::RefCell<HashMap<String, Place>>,
 }
 
 impl Doc<'_> {
-    /// The folder data files are relative to: the model file's own.
-    pub(super) fn dir(&self) -> std::path::PathBuf {
-        Path::new(self.file)
-            .parent()
-            .map(Path::to_path_buf)
-            .unwrap_or_default()
+    /// Remember where `path` stood: its key and its value.
+    pub(super) fn record(&self, path: String, key: Range<usize>, value: Range<usize>) {
+        self.places.borrow_mut().insert(
+            path,
+            Place {
+                key,
+                value,
+                text: None,
+            },
+        );
+    }
+
+    /// Remember how the number at `path` was written.
+    pub(super) fn record_text(&self, path: &str, text: &str) {
+        if let Some(p) = self.places.borrow_mut().get_mut(path) {
+            p.text = Some(text.to_string());
+        }
     }
 }
 
@@ -67,6 +80,8 @@ pub(super) type Result<T, E = ModelError> = std::result::Result<T, E>;
 pub(super) fn join(path: &str, key: &str) -> String {
     if path.is_empty() {
         key.to_string()
+    } else if key.is_empty() {
+        path.to_string()
     } else {
         format!("{path}.{key}")
     }
@@ -130,11 +145,11 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
     }
 
     pub(super) fn get(&mut self, key: &str) -> Option<&'t Spanned<DeValue<'i>>> {
-        let found = self
-            .table
-            .iter()
-            .find(|(k, _)| k.get_ref().as_ref() == key)
-            .map(|(_, v)| v);
+        let found = self.table.iter().find(|(k, _)| k.get_ref().as_ref() == key);
+        if let Some((k, v)) = found {
+            self.doc.record(self.key_path(key), k.span(), v.span());
+        }
+        let found = found.map(|(_, v)| v);
         if found.is_some() && !self.used.iter().any(|u| u == key) {
             self.used.push(key.to_string());
         }
@@ -146,13 +161,6 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
             .iter()
             .find(|(k, _)| k.get_ref().as_ref() == key)
             .map_or(self.span.clone(), |(_, v)| v.span())
-    }
-
-    pub(super) fn span_of(&self, key: &str) -> Range<usize> {
-        self.table
-            .iter()
-            .find(|(k, _)| k.get_ref().as_ref() == key)
-            .map_or(self.span.clone(), |(k, _)| k.span())
     }
 
     pub(super) fn number(&mut self, key: &str) -> Result<Option<Num>> {
@@ -173,6 +181,7 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
                 format!("`{}` is not a finite number", num.text),
             ));
         }
+        self.doc.record_text(&self.key_path(key), &num.text);
         Ok(Some(num))
     }
 
@@ -247,7 +256,11 @@ impl<'d, 't, 'i> Reader<'d, 't, 'i> {
         let mut out = Vec::new();
         for (i, v) in a.iter().enumerate() {
             match v.get_ref() {
-                DeValue::String(s) => out.push((s.to_string(), v.span())),
+                DeValue::String(s) => {
+                    self.doc
+                        .record(self.key_path(&format!("{key}[{i}]")), v.span(), v.span());
+                    out.push((s.to_string(), v.span()))
+                }
                 other => {
                     return Err(self.err(
                         v.span(),

@@ -2,38 +2,22 @@
 //! (and the classification of °C results), names used in formulas, and the
 //! order of the measurands.
 
+use std::collections::HashMap as Map;
+
+use incertus_expr::{Expr, FormulaError, Kind};
+
 use super::*;
+use crate::constants;
+use crate::load::closest;
 
-impl Loader<'_> {
-    pub(super) fn formula_error(
-        &self,
-        r: &Reader,
-        key: &str,
-        span: Range<usize>,
-        text: &str,
-        e: &FormulaError,
-    ) -> ModelError {
-        // Point into the string when the file holds it verbatim ("..." or '...').
-        let raw =
-            &self.doc.src[span.start.min(self.doc.src.len())..span.end.min(self.doc.src.len())];
-        let inner = raw.get(1..raw.len().saturating_sub(1));
-        let at = if inner == Some(text) {
-            span.start + 1 + e.span.start
-        } else {
-            span.start
-        };
-        let mut err = r.err(at..at, key, e.message.clone());
-        err.detail = Some(incertus_expr::caret(text, e.span));
-        err
-    }
-
+impl Validator<'_, '_> {
     /// The formula of each measurand in terms of the inputs (measurands it
     /// uses substituted) must stay within the node and depth limits:
     /// substitution can double a formula at every level.
     pub(super) fn check_expanded_size(
         &self,
         measurands: &[Measurand],
-        items: &DeArray,
+        index: &Map<String, usize>,
     ) -> Result<()> {
         fn walk(e: &Expr, known: &HashMap<&str, (f64, usize)>) -> (f64, usize) {
             match &e.kind {
@@ -56,22 +40,7 @@ impl Loader<'_> {
             let over_nodes = nodes > self.limits.max_formula_nodes as f64;
             let over_depth = depth > self.limits.max_formula_depth;
             if over_nodes || over_depth {
-                let index = items
-                    .iter()
-                    .position(|it| {
-                        it.get_ref()
-                            .as_table()
-                            .and_then(|t| t.iter().find(|(k, _)| k.get_ref().as_ref() == "name"))
-                            .and_then(|(_, v)| v.get_ref().as_str().map(|s| s == m.name))
-                            .unwrap_or(false)
-                    })
-                    .unwrap_or(0);
-                let r = item_reader(
-                    self.doc,
-                    &items[index],
-                    &format!("measurands[{index}]"),
-                    "name and formula",
-                )?;
+                let path = format!("measurands[{}].formula", index[&m.name]);
                 let msg = if over_nodes {
                     format!(
                         "with the measurands it uses written out, the formula of `{}` has about {:.3e} nodes; \
@@ -85,7 +54,7 @@ impl Loader<'_> {
                         m.name, depth, self.limits.max_formula_depth
                     )
                 };
-                return Err(r.err(r.value_span_of("formula"), "formula", msg));
+                return Err(self.err(&path, msg));
             }
             known.insert(m.name.as_str(), (nodes, depth));
         }
@@ -97,7 +66,7 @@ impl Loader<'_> {
         &self,
         inputs: &[Input],
         measurands: &mut [Measurand],
-        items: &DeArray,
+        index: &Map<String, usize>,
     ) -> Result<()> {
         use incertus_units::Dimension;
         let mut expanded: Vec<(String, incertus_expr::Expr)> = Vec::new();
@@ -111,43 +80,20 @@ impl Loader<'_> {
             })
             .collect();
         for m in measurands.iter_mut() {
-            let index = items
-                .iter()
-                .position(|it| {
-                    it.get_ref()
-                        .as_table()
-                        .and_then(|t| t.iter().find(|(k, _)| k.get_ref().as_ref() == "name"))
-                        .and_then(|(_, v)| v.get_ref().as_str().map(|s| s == m.name))
-                        .unwrap_or(false)
-                })
-                .unwrap_or(0);
-            let item = &items[index];
-            let r = item_reader(
-                self.doc,
-                item,
-                &format!("measurands[{index}]"),
-                "name and formula",
-            )?;
+            let path = format!("measurands[{}]", index[&m.name]);
+            let fpath = join(&path, "formula");
             let of = |n: &str| {
                 known
                     .iter()
                     .find(|(k, _)| k == n)
                     .map_or(Dimension::ONE, |(_, d)| *d)
             };
-            let d = crate::dimensions::dimension(&m.formula, &of).map_err(|e| {
-                self.formula_error(
-                    &r,
-                    "formula",
-                    r.value_span_of("formula"),
-                    &m.formula_text,
-                    &e,
-                )
-            })?;
+            let d = crate::dimensions::dimension(&m.formula, &of)
+                .map_err(|e| self.origin.formula_error(&fpath, &m.formula_text, &e))?;
             if let Some(u) = &m.unit_si {
                 if u.dimension != d {
-                    return Err(r.err(
-                        r.value_span_of("unit"),
-                        "unit",
+                    return Err(self.err(
+                        &join(&path, "unit"),
                         format!(
                             "the formula of `{}` has dimension {d}, but its unit `{}` has dimension {}",
                             m.name,
@@ -168,13 +114,7 @@ impl Loader<'_> {
                             message,
                             m.formula.span,
                         );
-                        return Err(self.formula_error(
-                            &r,
-                            "formula",
-                            r.value_span_of("formula"),
-                            &m.formula_text,
-                            &e,
-                        ));
+                        return Err(self.origin.formula_error(&fpath, &m.formula_text, &e));
                     }
                 }
             }
@@ -200,14 +140,9 @@ impl Loader<'_> {
         &self,
         inputs: &[Input],
         measurands: &[Measurand],
-        items: &DeArray,
     ) -> Result<()> {
         for (m, meas) in measurands.iter().enumerate() {
-            let item = &items[m];
-            let DeValue::Table(t) = item.get_ref() else {
-                continue;
-            };
-            let r = Reader::new(self.doc, &format!("measurands[{m}]"), t, item.span());
+            let fpath = format!("measurands[{m}].formula");
             for (name, span) in var_spans(&meas.formula) {
                 if inputs.iter().any(|i| i.name == name)
                     || measurands.iter().any(|x| x.name == name)
@@ -227,26 +162,12 @@ impl Loader<'_> {
                     ));
                 }
                 let e = FormulaError::new(incertus_expr::ErrorKind::Name, msg, span);
-                return Err(self.formula_error(
-                    &r,
-                    "formula",
-                    r.value_span_of("formula"),
-                    &meas.formula_text,
-                    &e,
-                ));
+                return Err(self.origin.formula_error(&fpath, &meas.formula_text, &e));
             }
         }
         Ok(())
     }
 }
-pub(super) fn unknown_input(n: &str, inputs: &[Input]) -> String {
-    let mut msg = format!("`{n}` is not an input");
-    if let Some(c) = closest(n, inputs.iter().map(|i| i.name.as_str())) {
-        msg.push_str(&format!("; did you mean `{c}`?"));
-    }
-    msg
-}
-
 /// Every name in a formula with the span of its first use.
 pub(super) fn var_spans(e: &Expr) -> Vec<(String, incertus_expr::Span)> {
     let mut out: Vec<(String, incertus_expr::Span)> = Vec::new();
@@ -266,23 +187,31 @@ pub(super) fn var_spans(e: &Expr) -> Vec<(String, incertus_expr::Span)> {
 
 /// Order measurands so that each comes after those it uses; a cycle is an
 /// error naming it.
-pub(super) fn order_measurands(
-    doc: &Doc,
-    ms: Vec<Measurand>,
-    items: &DeArray,
-) -> Result<Vec<Measurand>> {
+pub(super) fn order_measurands(ms: Vec<Measurand>) -> Result<Vec<Measurand>, String> {
     let n = ms.len();
+    let at: Map<&str, usize> = ms
+        .iter()
+        .enumerate()
+        .map(|(i, m)| (m.name.as_str(), i))
+        .collect();
     let deps: Vec<Vec<usize>> = ms
         .iter()
         .map(|m| {
-            let names = m.formula.names();
-            (0..n).filter(|&j| names.contains(&ms[j].name)).collect()
+            let mut d: Vec<usize> = m
+                .formula
+                .names()
+                .iter()
+                .filter_map(|x| at.get(x.as_str()).copied())
+                .collect();
+            d.sort_unstable();
+            d.dedup();
+            d
         })
         .collect();
     // Depth-first search with colours, reporting the first cycle found.
     let mut state = vec![0u8; n]; // 0 new, 1 on the path, 2 done
     let mut order = Vec::with_capacity(n);
-    pub(super) fn visit(
+    fn visit(
         i: usize,
         deps: &[Vec<usize>],
         state: &mut [u8],
@@ -314,14 +243,9 @@ pub(super) fn order_measurands(
             let mut path = Vec::new();
             if let Some(cycle) = visit(i, &deps, &mut state, &mut order, &mut path) {
                 let names: Vec<&str> = cycle.iter().map(|&c| ms[c].name.as_str()).collect();
-                let first = cycle[0];
-                return Err(doc.error(
-                    items[first].span(),
-                    &format!("measurands[{first}]"),
-                    format!(
-                        "the measurands depend on one another in a cycle: {}",
-                        names.join(" -> ")
-                    ),
+                return Err(format!(
+                    "the measurands depend on one another in a cycle: {}",
+                    names.join(" -> ")
                 ));
             }
         }
@@ -331,4 +255,25 @@ pub(super) fn order_measurands(
         .into_iter()
         .map(|i| slots[i].take().expect("each measurand once"))
         .collect())
+}
+
+impl Validator<'_, '_> {
+    /// The measurands in dependency order; a cycle is an error at the first
+    /// measurand on it (they are still in the order given here).
+    pub(super) fn order_measurands(&self, ms: Vec<Measurand>) -> Result<Vec<Measurand>> {
+        let first: Map<String, usize> = ms
+            .iter()
+            .enumerate()
+            .map(|(i, m)| (m.name.clone(), i))
+            .collect();
+        order_measurands(ms).map_err(|msg| {
+            let name = msg
+                .rsplit(": ")
+                .next()
+                .and_then(|c| c.split(" -> ").next())
+                .unwrap_or("");
+            let i = first.get(name).copied().unwrap_or(0);
+            self.origin.key_error(&format!("measurands[{i}]"), msg)
+        })
+    }
 }

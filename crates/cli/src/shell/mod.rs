@@ -31,106 +31,22 @@ use std::io::{BufRead, IsTerminal, Write};
 use std::path::{Path, PathBuf};
 
 use clap::Args;
-use incertus_gum::builder::text;
+use incertus_gum::description::{
+    CentredShape, DofGiven, InputDescription, InputEvaluation, LimitShape, LimitsGiven,
+    MeasurandDescription, ModelDescription,
+};
 use incertus_gum::rounding::write;
-use incertus_gum::{load_str, propagate, Options, Report};
+use incertus_gum::Report;
 
 use crate::Failure;
+
+mod session;
+use session::Session;
 
 #[derive(Args, Debug)]
 pub struct ShellArgs {
     /// Load this model file first
     file: Option<PathBuf>,
-}
-
-/// What the session has defined.
-#[derive(Clone, Debug, Default)]
-struct State {
-    /// Inputs: name and their model-file keys (already TOML values).
-    inputs: Vec<(String, Vec<(String, String)>)>,
-    correlations: Vec<(String, String, f64)>,
-    /// Results: name, formula, unit to report in.
-    results: Vec<(String, String, Option<String>)>,
-    /// Specifications of results (JCGM 106:2012): name and model-file keys.
-    specs: Vec<(String, Vec<(String, String)>)>,
-    /// Settings of a loaded model file, kept and saved with the session.
-    title: Option<String>,
-    coverage_probability: Option<f64>,
-    effective_dof_rounding: Option<String>,
-}
-
-impl State {
-    fn to_toml(&self) -> String {
-        let mut t = String::from("# written by incertus shell\n");
-        if let Some(title) = &self.title {
-            t.push_str(&format!("title = {}\n", text(title)));
-        }
-        if let Some(p) = self.coverage_probability {
-            t.push_str(&format!("coverage_probability = {p:?}\n"));
-        }
-        if let Some(r) = &self.effective_dof_rounding {
-            t.push_str(&format!("effective_dof_rounding = {}\n", text(r)));
-        }
-        for (name, keys) in &self.inputs {
-            t.push_str(&format!("\n[inputs.{name}]\n"));
-            for (k, v) in keys {
-                t.push_str(&format!("{k} = {v}\n"));
-            }
-        }
-        for (a, b, r) in &self.correlations {
-            t.push_str(&format!(
-                "\n[[correlations]]\ninputs = [{}, {}]\ncoefficient = {r:?}\n",
-                text(a),
-                text(b)
-            ));
-        }
-        for (name, f, unit) in &self.results {
-            t.push_str(&format!(
-                "\n[[measurands]]\nname = {}\nformula = {}\n",
-                text(name),
-                text(f)
-            ));
-            if let Some(u) = unit {
-                t.push_str(&format!("unit = {}\n", text(u)));
-            }
-            if let Some((_, keys)) = self.specs.iter().find(|(n, _)| n == name) {
-                t.push_str("\n[measurands.specification]\n");
-                for (k, v) in keys {
-                    t.push_str(&format!("{k} = {v}\n"));
-                }
-            }
-        }
-        t
-    }
-
-    fn remove(&mut self, name: &str) {
-        self.inputs.retain(|(n, _)| n != name);
-        self.results.retain(|(n, _, _)| n != name);
-    }
-
-    /// Evaluate; with no results, a placeholder keeps the model valid.
-    fn evaluate(
-        &self,
-        extra: Option<(&str, &str)>,
-    ) -> Result<(incertus_gum::Model, Report), String> {
-        let mut s = self.clone();
-        if let Some((n, f)) = extra {
-            s.results.push((n.to_string(), f.to_string(), None));
-        }
-        if s.results.is_empty() {
-            s.results.push(("_nothing".into(), "0".into(), None));
-        }
-        let model = load_str(&s.to_toml(), "<session>").map_err(|e| {
-            let mut m = e.message.clone();
-            if let Some(d) = e.detail {
-                m.push('\n');
-                m.push_str(&d);
-            }
-            m
-        })?;
-        let report = propagate(&model, &Options::default()).map_err(|e| e.to_string())?;
-        Ok((model, report))
-    }
 }
 
 /// Where the recovery file and the history live.
@@ -145,17 +61,15 @@ fn home() -> PathBuf {
 
 pub(crate) use crate::atomic::write_atomic;
 
+/// A name as the model loader takes it (`x`, `α`, `ρ_w`, `T_2`).
 fn is_name(s: &str) -> bool {
-    let mut c = s.chars();
-    matches!(c.next(), Some(f) if f.is_alphabetic() || f == '_')
-        && c.all(|x| x.is_alphanumeric() || x == '_')
-        && incertus_expr::Func::from_name(s).is_none()
-        && s != "pi"
+    incertus_gum::description::is_formula_name(s)
 }
 
 /// Parse `VALUE ± U [modifiers]`, `VALUE(DIGITS) [modifiers]` or a plain
-/// number; `None` when the text is not a value (then it is a formula).
-fn parse_value(rhs: &str) -> Option<Result<Vec<(String, String)>, String>> {
+/// number into an input called `name`; `None` when the text is not a value
+/// (then it is a formula).
+fn parse_value(name: &str, rhs: &str) -> Option<Result<InputDescription, String>> {
     let s = rhs.trim();
     let num_end = s
         .char_indices()
@@ -169,7 +83,8 @@ fn parse_value(rhs: &str) -> Option<Result<Vec<(String, String)>, String>> {
         .map_or(s.len(), |(i, _)| i);
     let value: f64 = s[..num_end].parse().ok()?;
     let rest = s[num_end..].trim_start();
-    let mut keys: Vec<(String, String)> = vec![("value".into(), format!("{value:?}"))];
+    let mut unit: Option<String> = None;
+    let mut dof: Option<f64> = None;
     let (u, mut rest): (Option<f64>, &str) = if let Some(r) =
         rest.strip_prefix('±').or_else(|| rest.strip_prefix("+-"))
     {
@@ -238,7 +153,7 @@ fn parse_value(rhs: &str) -> Option<Result<Vec<(String, String)>, String>> {
             let Some(close) = r.find(']') else {
                 return Some(Err("expected `]` after the unit".into()));
             };
-            keys.push(("unit".into(), text(r[..close].trim())));
+            unit = Some(r[..close].trim().to_string());
             rest = &r[close + 1..];
         } else if let Some(r) = rest
             .strip_prefix("dof=")
@@ -249,7 +164,7 @@ fn parse_value(rhs: &str) -> Option<Result<Vec<(String, String)>, String>> {
                 .find(char::is_whitespace)
                 .unwrap_or(r.trim_start().len());
             match r.trim_start()[..end].parse::<f64>() {
-                Ok(v) => keys.push(("dof".into(), format!("{v:?}"))),
+                Ok(v) => dof = Some(v),
                 Err(_) => return Some(Err("dof must be a number".into())),
             }
             rest = &r.trim_start()[end..];
@@ -267,17 +182,39 @@ fn parse_value(rhs: &str) -> Option<Result<Vec<(String, String)>, String>> {
             )));
         }
     }
-    match (u, k, dist) {
-        (None, None, None) => {}
-        (Some(u), None, None) => keys.push(("standard_uncertainty".into(), format!("{u:?}"))),
-        (Some(u), Some(k), None) => {
-            keys.push(("expanded_uncertainty".into(), format!("{u:?}")));
-            keys.push(("coverage_factor".into(), format!("{k:?}")));
+    let dof_given = dof.map(DofGiven::Dof);
+    let evaluation = match (u, k, dist) {
+        (None, None, None) => {
+            if dof.is_some() {
+                return Some(Err("an exact value has no degrees of freedom".into()));
+            }
+            InputEvaluation::Exact { value }
         }
-        (Some(a), None, Some(d)) => {
-            keys.push(("distribution".into(), text(d)));
-            keys.push(("half_width".into(), format!("{a:?}")));
-        }
+        (Some(u), None, None) => InputEvaluation::Standard {
+            value,
+            standard_uncertainty: u,
+            dof: dof_given,
+            shape: CentredShape::Normal,
+        },
+        (Some(u), Some(k), None) => InputEvaluation::Expanded {
+            value,
+            expanded_uncertainty: u,
+            coverage_factor: k,
+            dof: dof_given,
+            shape: CentredShape::Normal,
+        },
+        (Some(a), None, Some(d)) => InputEvaluation::Limits {
+            limits: LimitsGiven::HalfWidth {
+                value,
+                half_width: a,
+            },
+            shape: match d {
+                "triangular" => LimitShape::Triangular,
+                "arcsine" => LimitShape::Arcsine,
+                _ => LimitShape::Rectangular,
+            },
+            dof: dof_given,
+        },
         (None, _, _) => {
             return Some(Err(
                 "give an uncertainty with ± before (k=...) or a distribution".into(),
@@ -288,8 +225,10 @@ fn parse_value(rhs: &str) -> Option<Result<Vec<(String, String)>, String>> {
                 "(k=...) goes with an expanded uncertainty, not with a distribution".into(),
             ))
         }
-    }
-    Some(Ok(keys))
+    };
+    let mut input = InputDescription::new(name, evaluation);
+    input.unit = unit;
+    Some(Ok(input))
 }
 
 fn show(name: &str, value: f64, u: f64, unit: Option<&str>) -> String {
@@ -329,7 +268,7 @@ fn show_result(name: &str, r: &incertus_gum::MeasurandResult) -> String {
 }
 
 struct Shell {
-    state: State,
+    session: Session,
     out: Vec<String>,
     /// Whether save, load and recover may touch files.
     files: bool,
@@ -352,12 +291,25 @@ commands:
   list, save FILE (save! FILE replaces), load FILE, recover, help, quit";
 
 impl Shell {
+    fn new(files: bool) -> Self {
+        Shell {
+            session: Session::default(),
+            out: Vec::new(),
+            files,
+            failures: 0,
+        }
+    }
+
     fn say(&mut self, s: impl Into<String>) {
         let s = s.into();
         if s.starts_with("error:") {
             self.failures += 1;
         }
         self.out.push(s);
+    }
+
+    fn fail(&mut self, e: impl std::fmt::Display) {
+        self.say(format!("error: {e}"));
     }
 
     fn result_line(&self, report: &Report, name: &str) -> Option<String> {
@@ -403,14 +355,45 @@ impl Shell {
     fn statement(&mut self, line: &str) {
         if let Some((lhs, rhs)) = line.split_once('=') {
             let name = lhs.trim();
-            if is_name(name) && !rhs.trim_start().starts_with('=') {
-                return self.define(name, rhs.trim());
+            if !rhs.trim_start().starts_with('=')
+                && !name.is_empty()
+                && !name.contains(['<', '>', '!'])
+            {
+                if is_name(name) {
+                    return self.define(name, rhs.trim());
+                }
+                if incertus_expr::parse(name).is_err() || name.contains('.') {
+                    return self.fail(format!(
+                        "`{name}` cannot be a name: a name starts with a letter or `_` and holds \
+                         letters, digits and `_` (Greek letters and subscripts such as ρ_w are fine), \
+                         and is not a function name or pi"
+                    ));
+                }
             }
         }
-        // A formula alone.
-        match self.state.evaluate(Some(("_", line))) {
-            Ok((_, report)) => {
-                let r = report
+        // A formula alone: its value and uncertainty, nothing kept.
+        if let Err(e) = incertus_expr::parse(line) {
+            return self.fail(e.render(line));
+        }
+        let uses: Vec<String> = incertus_expr::parse(line)
+            .map(|e| e.names())
+            .unwrap_or_default();
+        let roots: Vec<String> = uses
+            .iter()
+            .filter(|n| self.session.is_measurand(n))
+            .cloned()
+            .collect();
+        let inputs: Vec<&str> = uses
+            .iter()
+            .filter(|n| !self.session.is_measurand(n))
+            .map(String::as_str)
+            .collect();
+        let mut part = self.session.part(&roots, &inputs);
+        part.measurands.push(MeasurandDescription::new("_", line));
+        match Session::evaluate(&part) {
+            Ok(x) => {
+                let r = x
+                    .report
                     .results
                     .iter()
                     .find(|r| r.name == "_")
@@ -418,16 +401,18 @@ impl Shell {
                 let s = show_result("", r);
                 self.say(s.trim_start_matches(" = ").to_string());
             }
-            Err(e) => self.say(format!("error: {e}")),
+            Err(e) => self.fail(e),
         }
     }
 
     fn define(&mut self, name: &str, rhs: &str) {
-        let mut next = self.state.clone();
-        next.remove(name);
-        match parse_value(rhs) {
-            Some(Err(e)) => return self.say(format!("error: {e}")),
-            Some(Ok(keys)) => next.inputs.push((name.to_string(), keys)),
+        let mut next = self.session.clone();
+        let is_input = match parse_value(name, rhs) {
+            Some(Err(e)) => return self.fail(e),
+            Some(Ok(input)) => {
+                next.set_input(input);
+                true
+            }
             None => {
                 // `formula [unit]`: the unit to report the result in.
                 let (formula, unit) = match rhs
@@ -439,172 +424,186 @@ impl Shell {
                     None => (rhs, None),
                 };
                 if let Err(e) = incertus_expr::parse(formula) {
-                    return self.say(format!("error: {}", e.render(formula)));
+                    return self.fail(e.render(formula));
                 }
-                // A result is not an input: its stated correlations go.
-                next.correlations.retain(|(a, b, _)| a != name && b != name);
-                next.results
-                    .push((name.to_string(), formula.to_string(), unit));
+                let mut m = MeasurandDescription::new(name, formula);
+                m.unit = unit;
+                next.set_measurand(m);
+                false
             }
+        };
+        // What this statement touches: the name and what uses it.
+        let mut roots = next.dependents(&[name]);
+        if !is_input {
+            roots.push(name.to_string());
         }
-        match next.evaluate(None) {
-            Ok((model, report)) => {
-                let line = match model.input(name) {
+        let inputs: Vec<&str> = if is_input { vec![name] } else { vec![] };
+        match next.evaluate_part(&roots, &inputs) {
+            Ok(part) => {
+                let line = match part.model.input(name) {
                     Some(i) => {
-                        let unit = i.unit.clone();
                         let (v, u) = i.shown();
-                        show(name, v, u, unit.as_deref())
+                        show(name, v, u, i.unit.as_deref())
                     }
-                    None => self.result_line(&report, name).unwrap_or_default(),
+                    None => self.result_line(&part.report, name).unwrap_or_default(),
                 };
-                self.state = next;
+                self.session = next;
                 self.say(line);
             }
-            Err(e) => self.say(format!("error: {e}")),
+            Err(e) => self.fail(e),
         }
     }
 
     /// `specify NAME key=value ...`: a tolerance and decision rule for a
-    /// result, checked by the model loader like a file's specification.
+    /// result, checked like a file's specification.
     fn specify(&mut self, arg: &str) {
         let mut words = arg.split_whitespace();
         let name = words.next().unwrap_or("");
-        if !self.state.results.iter().any(|(n, _, _)| n == name) {
-            return self.say(format!(
-                "error: `{name}` is not a result (define it with {name} = formula, then specify it)"
+        if !self.session.is_measurand(name) {
+            return self.fail(format!(
+                "`{name}` is not a result (define it with {name} = formula, then specify it)"
             ));
         }
-        let mut next = self.state.clone();
-        next.specs.retain(|(n, _)| n != name);
         let rest: Vec<&str> = words.collect();
+        let mut next = self.session.clone();
+        let slot = |s: &mut Session| {
+            s.d.measurands
+                .iter_mut()
+                .find(|m| m.name == name)
+                .map(|m| &mut m.specification)
+                .expect("a measurand")
+                .take()
+        };
+        let _ = slot(&mut next);
         if rest == ["off"] {
-            self.state = next;
+            self.session = next;
             return self.say(format!("{name}: no specification"));
         }
-        let mut keys = Vec::new();
-        for w in rest {
-            let Some((k, v)) = w.split_once('=') else {
-                return self.say(format!(
-                    "error: `{w}`: write key=value (lower, upper, rule, guard, risk, process_mean, process_sd)"
-                ));
-            };
-            let key = match k {
-                "lower" | "upper" | "process_mean" => k,
-                "process_sd" => "process_standard_deviation",
-                "guard" => "guard_multiple",
-                "risk" => "max_specific_risk",
-                "rule" => {
-                    let rule = match v {
-                        "simple" | "simple-acceptance" => "simple acceptance",
-                        "guarded-acceptance" => "guarded acceptance",
-                        "guarded-rejection" => "guarded rejection",
-                        other => {
-                            return self.say(format!(
-                                "error: unknown rule `{other}`: simple, guarded-acceptance or guarded-rejection"
-                            ))
-                        }
-                    };
-                    keys.push(("rule".to_string(), text(rule)));
-                    continue;
-                }
-                other => {
-                    return self.say(format!(
-                        "error: unknown key `{other}`: lower, upper, rule, guard, risk, process_mean, process_sd"
-                    ))
-                }
-            };
-            match v.parse::<f64>() {
-                Ok(x) if x.is_finite() => keys.push((key.to_string(), format!("{x:?}"))),
-                _ => return self.say(format!("error: `{k}` needs a number, found `{v}`")),
-            }
+        let spec = match specification(&rest) {
+            Ok(s) => s,
+            Err(e) => return self.fail(e),
+        };
+        if let Some(m) = next.d.measurands.iter_mut().find(|m| m.name == name) {
+            m.specification = Some(spec);
         }
-        next.specs.push((name.to_string(), keys));
-        match next.evaluate(None) {
-            Ok((_, report)) => {
-                self.state = next;
-                if let Some(r) = report.results.iter().find(|r| r.name == name) {
+        match next.evaluate_part(&[name.to_string()], &[]) {
+            Ok(part) => {
+                self.session = next;
+                if let Some(r) = part.report.results.iter().find(|r| r.name == name) {
                     for l in crate::report::conformity_lines(r) {
                         self.say(l);
                     }
                 }
             }
-            Err(e) => self.say(format!("error: {e}")),
+            Err(e) => self.fail(e),
         }
     }
 
     fn list(&mut self) {
-        let Ok((_, report)) = self.state.evaluate(None) else {
-            return self.say("error: the definitions cannot be evaluated");
-        };
-        if self.state.inputs.is_empty() && self.state.results.is_empty() {
+        if self.session.is_empty() {
             return self.say("nothing is defined yet");
         }
-        let (model, _) = self.state.evaluate(None).expect("evaluated above");
-        for (name, _) in &self.state.inputs.clone() {
-            let i = model.input(name).expect("defined");
+        let part = match self.session.evaluate_all() {
+            Ok(p) => p,
+            Err(e) => return self.fail(format!("the definitions cannot be evaluated: {e}")),
+        };
+        let mut lines = Vec::new();
+        for i in &part.model.inputs {
             let (v, u) = i.shown();
-            self.say(format!("input  {}", show(name, v, u, i.unit.as_deref())));
+            lines.push(format!("input  {}", show(&i.name, v, u, i.unit.as_deref())));
         }
-        for (name, f, _) in &self.state.results.clone() {
-            let l = self.result_line(&report, name).unwrap_or_default();
-            self.say(format!("result {l}   from {name} = {f}"));
+        for m in &self.session.d.measurands {
+            let l = self.result_line(&part.report, &m.name).unwrap_or_default();
+            lines.push(format!("result {l}   from {} = {}", m.name, m.formula));
         }
-        for (a, b, r) in &self.state.correlations.clone() {
-            self.say(format!("correlation r({a}, {b}) = {r}"));
+        for c in &self.session.d.correlations {
+            lines.push(format!(
+                "correlation r({}, {}) = {}",
+                c.inputs[0], c.inputs[1], c.coefficient
+            ));
         }
-        for (name, keys) in &self.state.specs.clone() {
-            if let Some(c) = report
-                .results
-                .iter()
-                .find(|r| &r.name == name)
-                .and_then(|r| r.conformity.as_ref())
-            {
-                let given: Vec<String> = keys.iter().map(|(k, v)| format!("{k} = {v}")).collect();
-                self.say(format!(
-                    "specification of {name}: {}; {}, p_c = {}",
-                    given.join(", "),
-                    c.verdict,
-                    incertus_gum::conformity::probability(c.conformance_probability)
-                ));
+        for m in &self.session.d.measurands {
+            let (Some(spec), Some(c)) = (
+                &m.specification,
+                part.report
+                    .results
+                    .iter()
+                    .find(|r| r.name == m.name)
+                    .and_then(|r| r.conformity.as_ref()),
+            ) else {
+                continue;
+            };
+            lines.push(format!(
+                "specification of {}: {}; {}, p_c = {}",
+                m.name,
+                describe_specification(spec),
+                c.verdict,
+                incertus_gum::conformity::probability(c.conformance_probability)
+            ));
+        }
+        for l in lines {
+            self.say(l);
+        }
+    }
+
+    /// The evaluated part of the session behind the result `name`.
+    fn result_part(&mut self, name: &str) -> Option<session::Part> {
+        if !self.session.is_measurand(name) {
+            self.fail(format!(
+                "`{name}` is not a result (define it with {name} = formula)"
+            ));
+            return None;
+        }
+        match self.session.evaluate_part(&[name.to_string()], &[]) {
+            Ok(p) => Some(p),
+            Err(e) => {
+                self.fail(e);
+                None
             }
         }
     }
 
     fn budget(&mut self, name: &str) {
-        match self.state.evaluate(None) {
-            Ok((_, report)) => match report.results.iter().find(|r| r.name == name) {
-                Some(r) => {
-                    let mut one = report.clone();
-                    one.results = vec![r.clone()];
-                    one.fits.clear();
-                    let t = crate::report::text(&one, crate::report::Style { digits: 2 }, None);
-                    self.say(t.trim_end().to_string());
-                }
-                None => self.say(format!(
-                    "error: `{name}` is not a result (define it with {name} = formula)"
-                )),
-            },
-            Err(e) => self.say(format!("error: {e}")),
-        }
+        let Some(part) = self.result_part(name) else {
+            return;
+        };
+        let r = part
+            .report
+            .results
+            .iter()
+            .find(|r| r.name == name)
+            .expect("evaluated");
+        let mut one = part.report.clone();
+        one.results = vec![r.clone()];
+        one.fits.clear();
+        let t = crate::report::text(&one, crate::report::Style { digits: 2 }, None);
+        self.say(t.trim_end().to_string());
     }
 
     fn sensitivities(&mut self, name: &str) {
-        match self.state.evaluate(None) {
-            Ok((_, report)) => match report.results.iter().find(|r| r.name == name) {
-                Some(r) => {
-                    for b in &r.budget {
-                        let l = format!(
-                            "∂{name}/∂{} = {}  = {}",
-                            b.input,
-                            b.sensitivity_formula,
-                            incertus_gum::rounding::significant(b.sensitivity, 8)
-                        );
-                        self.say(l);
-                    }
-                }
-                None => self.say(format!("error: `{name}` is not a result")),
-            },
-            Err(e) => self.say(format!("error: {e}")),
+        let Some(part) = self.result_part(name) else {
+            return;
+        };
+        let r = part
+            .report
+            .results
+            .iter()
+            .find(|r| r.name == name)
+            .expect("evaluated");
+        let lines: Vec<String> = r
+            .budget
+            .iter()
+            .map(|b| {
+                format!(
+                    "∂{name}/∂{} = {}  = {}",
+                    b.input,
+                    b.sensitivity_formula,
+                    incertus_gum::rounding::significant(b.sensitivity, 8)
+                )
+            })
+            .collect();
+        for l in lines {
+            self.say(l);
         }
     }
 
@@ -618,18 +617,20 @@ impl Shell {
                 return self.say("error: montecarlo NAME [TRIALS]: TRIALS is a whole number")
             }
         };
-        let (model, report) = match self.state.evaluate(None) {
-            Ok(x) => x,
-            Err(e) => return self.say(format!("error: {e}")),
+        let Some(part) = self.result_part(name) else {
+            return;
         };
-        let Some(j) = report.results.iter().position(|r| r.name == name) else {
-            return self.say(format!("error: `{name}` is not a result"));
-        };
+        let j = part
+            .report
+            .results
+            .iter()
+            .position(|r| r.name == name)
+            .expect("evaluated");
         let settings = incertus_mc::Settings {
             trials: incertus_mc::Trials::Fixed(trials),
             ..incertus_mc::Settings::default()
         };
-        match incertus_mc::run(&model, &report, &settings) {
+        match incertus_mc::run(&part.model, &part.report, &settings) {
             Ok(mc) => {
                 let m = &mc.results[j];
                 let w = write(m.value, m.standard_uncertainty, 2);
@@ -646,7 +647,7 @@ impl Shell {
                     if m.validation.passed { "validated" } else { "NOT validated (JCGM 101:2008, 8.2): the Monte Carlo result is the one to report" }
                 ));
             }
-            Err(e) => self.say(format!("error: {e}")),
+            Err(e) => self.fail(e),
         }
     }
 
@@ -658,16 +659,24 @@ impl Shell {
         let Ok(r) = r.parse::<f64>() else {
             return self.say("error: the coefficient must be a number");
         };
-        let mut next = self.state.clone();
-        next.correlations
-            .retain(|(x, y, _)| !((x == a && y == b) || (x == b && y == a)));
-        next.correlations.push((a.to_string(), b.to_string(), r));
-        match next.evaluate(None) {
+        let mut next = self.session.clone();
+        next.d.correlations.retain(|c| {
+            let [x, y] = &c.inputs;
+            !((x == a && y == b) || (x == b && y == a))
+        });
+        next.d
+            .correlations
+            .push(incertus_gum::description::CorrelationDescription {
+                inputs: [a.to_string(), b.to_string()],
+                coefficient: r,
+            });
+        let roots = next.dependents(&[a, b]);
+        match next.evaluate_part(&roots, &[a, b]) {
             Ok(_) => {
-                self.state = next;
+                self.session = next;
                 self.say(format!("r({a}, {b}) = {r}"));
             }
-            Err(e) => self.say(format!("error: {e}")),
+            Err(e) => self.fail(e),
         }
     }
 
@@ -678,7 +687,7 @@ impl Shell {
                 "error: {file} exists; use save! {file} to replace it"
             ));
         }
-        match write_atomic(p, &self.state.to_toml()) {
+        match write_atomic(p, &saved_text(&self.session.d)) {
             Ok(()) => self.say(format!("saved to {file}")),
             Err(e) => self.say(format!("error: cannot write {file}: {e}")),
         }
@@ -689,110 +698,183 @@ impl Shell {
             Ok(t) => t,
             Err(e) => return self.say(format!("error: cannot read {}: {e}", path.display())),
         };
-        let table: toml::Table = match text.parse() {
-            Ok(t) => t,
-            Err(e) => return self.say(format!("error: {e}")),
+        let file = path.display().to_string();
+        let d = match ModelDescription::from_toml(&text, &file) {
+            Ok(d) => d,
+            Err(e) => return self.fail(e),
         };
-        let mut st = State::default();
-        for (k, _) in table.iter() {
-            if !matches!(
-                k.as_str(),
-                "inputs"
-                    | "correlations"
-                    | "measurands"
-                    | "title"
-                    | "coverage_probability"
-                    | "effective_dof_rounding"
-            ) {
-                return self.say(format!(
-                    "error: the shell cannot hold `{k}` of {}; use incertus eval",
-                    path.display()
-                ));
-            }
-        }
-        st.title = table
-            .get("title")
-            .and_then(|v| v.as_str())
-            .map(str::to_string);
-        st.coverage_probability = table
-            .get("coverage_probability")
-            .and_then(|v| v.as_float().or(v.as_integer().map(|i| i as f64)));
-        st.effective_dof_rounding = table
-            .get("effective_dof_rounding")
-            .and_then(|v| v.as_str())
-            .map(str::to_string);
-        if let Some(toml::Value::Table(inputs)) = table.get("inputs") {
-            for (name, v) in inputs {
-                let toml::Value::Table(keys) = v else {
-                    continue;
-                };
-                st.inputs.push((
-                    name.clone(),
-                    keys.iter()
-                        .map(|(k, v)| (k.clone(), v.to_string()))
-                        .collect(),
-                ));
-            }
-        }
-        if let Some(toml::Value::Array(cs)) = table.get("correlations") {
-            for c in cs {
-                let names: Vec<String> = c
-                    .get("inputs")
-                    .and_then(|v| v.as_array())
-                    .map(|a| {
-                        a.iter()
-                            .filter_map(|x| x.as_str().map(str::to_string))
-                            .collect()
-                    })
-                    .unwrap_or_default();
-                let r = c
-                    .get("coefficient")
-                    .and_then(|v| v.as_float().or(v.as_integer().map(|i| i as f64)));
-                if let ([a, b], Some(r)) = (names.as_slice(), r) {
-                    st.correlations.push((a.clone(), b.clone(), r));
-                }
-            }
-        }
-        if let Some(toml::Value::Array(ms)) = table.get("measurands") {
-            for m in ms {
-                if let (Some(n), Some(f)) = (
-                    m.get("name").and_then(|v| v.as_str()),
-                    m.get("formula").and_then(|v| v.as_str()),
-                ) {
-                    let unit = m.get("unit").and_then(|v| v.as_str()).map(str::to_string);
-                    st.results.push((n.to_string(), f.to_string(), unit));
-                    if let Some(toml::Value::Table(spec)) = m.get("specification") {
-                        st.specs.push((
-                            n.to_string(),
-                            spec.iter()
-                                .map(|(k, v)| (k.clone(), v.to_string()))
-                                .collect(),
-                        ));
-                    }
-                }
-            }
-        }
-        match st.evaluate(None) {
+        // Data files of fits are relative to the model file: read them
+        // now, from there, and keep the numbers.
+        let d = match inline_fit_data(d, path) {
+            Ok(d) => d,
+            Err(e) => return self.fail(e),
+        };
+        let session = Session::from_description(d);
+        match session.evaluate_all() {
             Ok(_) => {
-                let n = st.inputs.len() + st.results.len();
-                self.state = st;
+                let n = session.d.inputs.len() + session.d.measurands.len();
+                self.session = session;
                 self.say(format!("loaded {n} definitions from {}", path.display()));
             }
-            Err(e) => self.say(format!("error: {e}")),
+            Err(e) => self.fail(format!("{}: {e}", path.display())),
         }
     }
+}
+
+/// The text `save` writes: the session's description as a model file.
+fn saved_text(d: &ModelDescription) -> String {
+    format!("# written by incertus shell\n{}", d.to_toml())
+}
+
+/// A loaded model's fits with their data read from files relative to the
+/// model file, so the session holds numbers and does not depend on the
+/// working folder.
+fn inline_fit_data(mut d: ModelDescription, model: &Path) -> Result<ModelDescription, String> {
+    use incertus_gum::description::FitData;
+    let dir = model.parent().map(Path::to_path_buf).unwrap_or_default();
+    for f in &mut d.fits {
+        let FitData::File {
+            path,
+            x,
+            y,
+            y_uncertainty,
+            x_uncertainty,
+        } = &f.data
+        else {
+            continue;
+        };
+        let mut names: Vec<&str> = vec![x, y];
+        names.extend(y_uncertainty.as_deref());
+        names.extend(x_uncertainty.as_deref());
+        let cols = incertus_fit::read_columns(&dir.join(path), &names)
+            .map_err(|e| format!("fits.{}.data: {}", f.name, e.0))?;
+        if cols.rows.iter().enumerate().any(|(i, r)| *r != i + 1) {
+            // Rows were skipped in the file: keep the file reference.
+            continue;
+        }
+        let mut it = cols.columns.into_iter();
+        let cx = it.next().expect("x");
+        let cy = it.next().expect("y");
+        let uy = y_uncertainty.as_ref().map(|_| it.next().expect("u(y)"));
+        let ux = x_uncertainty.as_ref().map(|_| it.next().expect("u(x)"));
+        f.data = FitData::Inline {
+            x: cx,
+            y: cy,
+            y_uncertainty: uy,
+            x_uncertainty: ux,
+        };
+    }
+    Ok(d)
+}
+
+/// `key=value` words of `specify` to a specification.
+fn specification(words: &[&str]) -> Result<incertus_gum::conformity::Specification, String> {
+    use incertus_gum::conformity::{Guard, Process, Rule, Specification};
+    let mut s = Specification {
+        lower: None,
+        upper: None,
+        rule: Rule::SimpleAcceptance,
+        guard: Guard::None,
+        process: None,
+    };
+    let (mut rule, mut mean, mut sd) = (None, None, None);
+    let (mut multiple, mut risk) = (None, None);
+    for w in words {
+        let Some((k, v)) = w.split_once('=') else {
+            return Err(format!(
+                "`{w}`: write key=value (lower, upper, rule, guard, risk, process_mean, process_sd)"
+            ));
+        };
+        if k == "rule" {
+            rule = Some(match v {
+                "simple" | "simple-acceptance" => Rule::SimpleAcceptance,
+                "guarded-acceptance" => Rule::GuardedAcceptance,
+                "guarded-rejection" => Rule::GuardedRejection,
+                other => {
+                    return Err(format!(
+                        "unknown rule `{other}`: simple, guarded-acceptance or guarded-rejection"
+                    ))
+                }
+            });
+            continue;
+        }
+        let x = match v.parse::<f64>() {
+            Ok(x) if x.is_finite() => x,
+            _ => return Err(format!("`{k}` needs a number, found `{v}`")),
+        };
+        match k {
+            "lower" => s.lower = Some(x),
+            "upper" => s.upper = Some(x),
+            "process_mean" => mean = Some(x),
+            "process_sd" => sd = Some(x),
+            "guard" => multiple = Some(x),
+            "risk" => risk = Some(x),
+            other => return Err(format!(
+                "unknown key `{other}`: lower, upper, rule, guard, risk, process_mean, process_sd"
+            )),
+        }
+    }
+    if s.lower.is_none() && s.upper.is_none() {
+        return Err("a specification needs lower=, upper= or both (the tolerance limits)".into());
+    }
+    s.rule = rule.unwrap_or(Rule::SimpleAcceptance);
+    s.guard = match (s.rule, multiple, risk) {
+        (_, Some(_), Some(_)) => return Err("give either guard= or risk=, not both".into()),
+        (Rule::SimpleAcceptance, None, None) => Guard::None,
+        (Rule::SimpleAcceptance, _, _) => {
+            return Err("simple acceptance has no guard band; say rule=guarded-acceptance or rule=guarded-rejection".into())
+        }
+        (r, None, None) => {
+            return Err(format!(
+                "{} needs a guard band: guard=R (w = R U) or risk=A (the largest specific risk)",
+                r.name()
+            ))
+        }
+        (_, Some(m), None) => Guard::MultipleOfU(m),
+        (_, None, Some(a)) => Guard::SpecificRisk(a),
+    };
+    s.process = match (mean, sd) {
+        (None, None) => None,
+        (Some(mean), Some(standard_deviation)) => Some(Process {
+            mean,
+            standard_deviation,
+        }),
+        _ => return Err("give both process_mean= and process_sd=".into()),
+    };
+    Ok(s)
+}
+
+/// A specification as `list` shows it, in the model file's key names.
+fn describe_specification(s: &incertus_gum::conformity::Specification) -> String {
+    use incertus_gum::conformity::Guard;
+    let mut parts = Vec::new();
+    if let Some(l) = s.lower {
+        parts.push(format!("lower = {l:?}"));
+    }
+    if let Some(u) = s.upper {
+        parts.push(format!("upper = {u:?}"));
+    }
+    parts.push(format!("rule = \"{}\"", s.rule.name()));
+    match s.guard {
+        Guard::None => {}
+        Guard::MultipleOfU(r) => parts.push(format!("guard_multiple = {r:?}")),
+        Guard::SpecificRisk(a) => parts.push(format!("max_specific_risk = {a:?}")),
+    }
+    if let Some(p) = s.process {
+        parts.push(format!("process_mean = {:?}", p.mean));
+        parts.push(format!(
+            "process_standard_deviation = {:?}",
+            p.standard_deviation
+        ));
+    }
+    parts.join(", ")
 }
 
 /// Run shell statements without a terminal and without files (save, load
 /// and recover are refused): the output lines. For tests and fuzzing of
 /// the statement parser.
 pub fn run_statements<'a>(lines: impl IntoIterator<Item = &'a str>) -> Vec<String> {
-    let mut sh = Shell {
-        state: State::default(),
-        out: Vec::new(),
-        files: false,
-        failures: 0,
-    };
+    let mut sh = Shell::new(false);
     for l in lines {
         if !sh.line(l) {
             break;
@@ -802,12 +884,7 @@ pub fn run_statements<'a>(lines: impl IntoIterator<Item = &'a str>) -> Vec<Strin
 }
 
 pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
-    let mut sh = Shell {
-        state: State::default(),
-        out: Vec::new(),
-        files: true,
-        failures: 0,
-    };
+    let mut sh = Shell::new(true);
     let flush = |sh: &mut Shell, out: &mut dyn Write| {
         for l in sh.out.drain(..) {
             let _ = writeln!(out, "{l}");
@@ -859,8 +936,8 @@ pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
             }
         }
     }
-    if !sh.state.inputs.is_empty() || !sh.state.results.is_empty() {
-        if let Err(e) = write_atomic(&recovery, &sh.state.to_toml()) {
+    if !sh.session.is_empty() {
+        if let Err(e) = write_atomic(&recovery, &saved_text(&sh.session.d)) {
             let _ = writeln!(
                 out,
                 "note: the recovery file {} could not be written: {e}",
