@@ -16,13 +16,13 @@ fn session(input: &str, home: &std::path::Path, cwd: &std::path::Path) -> (i32, 
         .stderr(Stdio::piped())
         .spawn()
         .expect("the binary runs");
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(input.as_bytes())
-        .unwrap();
+    // Written from a thread: a long script's output must be read while
+    // the script is still being written, or both pipes fill.
+    let mut stdin = child.stdin.take().unwrap();
+    let input = input.to_string();
+    let writer = std::thread::spawn(move || stdin.write_all(input.as_bytes()));
     let out = child.wait_with_output().unwrap();
+    let _ = writer.join(); // a script may end (quit) before all is written
     (
         out.status.code().unwrap_or(-1),
         String::from_utf8_lossy(&out.stdout).into_owned(),
@@ -204,4 +204,125 @@ fn load_keeps_the_settings_of_the_file() {
         v["results"][0]["expanded_uncertainty"].as_f64().unwrap()
     };
     assert_eq!(eval("m.toml"), eval("s.toml"));
+}
+
+/// Every name a model file takes works in the shell (Greek letters,
+/// subscripts); a name the formulas cannot use is refused with a message
+/// about names, not about files.
+#[test]
+fn the_shell_takes_every_name_a_model_file_takes() {
+    let dir = scratch("shell_names");
+    let (code, out) = session(
+        "α = 1.2e-5 ± 1e-6 [1/K]\nρ_w = 998.2 ± 0.05 [kg/m^3]\nΔT = 2.0 ± 0.1 [K]\n\
+         V0 = 10 ± 0.01 [mL]\nm = ρ_w*V0*(1 + α*ΔT) [g]\nsave names.toml\na.b = 3\nquit\n",
+        &dir.join("home"),
+        &dir,
+    );
+    assert_eq!(code, 1, "one statement (a.b) fails\n{out}");
+    assert!(out.contains("m = 9.982"), "{out}");
+    assert!(
+        out.contains("error: `a.b` cannot be a name: a name starts with a letter"),
+        "{out}"
+    );
+    assert!(!out.contains("TOML"), "{out}");
+    // The saved file is a model file eval reads, with the same names.
+    let o = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .args(["eval", "names.toml", "--format", "json"])
+        .current_dir(&dir)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["results"][0]["name"], "m");
+}
+
+/// An empty session has nothing to show or keep: no placeholder result,
+/// no recovery file; a session of inputs only saves a draft that loads back.
+#[test]
+fn an_empty_session_keeps_no_placeholder() {
+    let dir = scratch("shell_empty");
+    let home = dir.join("home");
+    let (code, out) = session("list\nquit\n", &home, &dir);
+    assert_eq!((code, out.as_str()), (0, "nothing is defined yet\n"));
+    assert!(!home.join("recovery.toml").exists());
+    let (code, out) = session("x = 1.0 ± 0.1\nlist\nsave d.toml\n", &home, &dir);
+    assert_eq!(code, 0, "{out}");
+    assert!(!out.contains("_nothing"), "{out}");
+    let saved = std::fs::read_to_string(dir.join("d.toml")).unwrap();
+    assert!(!saved.contains("measurands"), "{saved}");
+    let (code, out) = session("load d.toml\nx*3\n", &home, &dir);
+    assert_eq!(code, 0, "{out}");
+    assert!(out.contains("loaded 1 definitions"), "{out}");
+    assert!(out.contains("3.00 ± 0.30"), "{out}");
+}
+
+/// A long session does not slow down with its length: every statement is
+/// evaluated on the part of the model it touches. 10 000 statements (5 000
+/// inputs, 5 000 results) run here; the benchmark `shell` measures the
+/// 1 000-statement session.
+#[test]
+fn a_long_session_runs_to_its_end() {
+    let dir = scratch("shell_long");
+    let mut script = String::new();
+    for i in 0..5000usize {
+        script.push_str(&format!("x{i} = {}.0 ± 0.01\n", i + 1));
+        script.push_str(&format!("y{i} = 2*x{i} + x{}\n", i.saturating_sub(1)));
+    }
+    script.push_str("x0 = 1.0 ± 0.02\ny1\ncorrelate x0 x1 0.5\ny1\n");
+    let (code, out) = session(&script, &dir.join("home"), &dir);
+    assert_eq!(code, 0);
+    let lines: Vec<&str> = out.lines().collect();
+    assert_eq!(lines.len(), 10_004);
+    // y1 = 2 x1 + x0 = 5; u² = (2·0.01)² + 0.02² → 0.028; with r = 0.5,
+    // + 2·2·1·0.5·0.01·0.02 = 0.0004 → u = √0.0012 = 0.035.
+    assert!(
+        lines[10_001].starts_with("5.000 ± 0.028"),
+        "{}",
+        lines[10_001]
+    );
+    assert!(
+        lines[10_003].starts_with("5.000 ± 0.035"),
+        "{}",
+        lines[10_003]
+    );
+}
+
+/// `load` keeps what the file holds — settings, fits with their data, groups
+/// observed together — and `save` writes it back.
+#[test]
+fn load_keeps_fits_and_groups() {
+    let dir = scratch("shell_load_fits");
+    std::fs::write(
+        dir.join("cal.csv"),
+        "conc,signal\n0,0.002\n1,0.101\n2,0.199\n3,0.302\n4,0.398\n",
+    )
+    .unwrap();
+    std::fs::write(
+        dir.join("m.toml"),
+        "[fits.cal]\ndata = \"cal.csv\"\nx = \"conc\"\ny = \"signal\"\n\n\
+         [inputs.b0]\nfit = \"cal\"\nparameter = \"intercept\"\n\
+         [inputs.b1]\nfit = \"cal\"\nparameter = \"slope\"\n\
+         [inputs.p]\nobservations = [1.0, 1.2, 0.9, 1.1]\n\
+         [inputs.q]\nobservations = [2.0, 2.3, 1.9, 2.2]\n\n\
+         [[observed_together]]\ninputs = [\"p\", \"q\"]\n\n\
+         [[measurands]]\nname = \"c\"\nformula = \"(0.25 - b0)/b1\"\n\
+         [[measurands]]\nname = \"r\"\nformula = \"p/q\"\n",
+    )
+    .unwrap();
+    let (code, out) = session("load m.toml\nc\nr\nsave s.toml\n", &dir.join("home"), &dir);
+    assert_eq!(code, 0, "{out}");
+    let eval = |f: &str| {
+        let o = Command::new(env!("CARGO_BIN_EXE_incertus"))
+            .args(["eval", f, "--format", "json"])
+            .current_dir(&dir)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        let u = |k: usize| v["results"][k]["standard_uncertainty"].as_f64().unwrap();
+        (u(0), u(1))
+    };
+    assert_eq!(eval("m.toml"), eval("s.toml"));
+    let saved = std::fs::read_to_string(dir.join("s.toml")).unwrap();
+    assert!(saved.contains("observed_together"), "{saved}");
 }

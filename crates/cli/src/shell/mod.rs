@@ -406,13 +406,13 @@ impl Shell {
     }
 
     fn define(&mut self, name: &str, rhs: &str) {
-        let mut next = self.session.clone();
-        let is_input = match parse_value(name, rhs) {
+        enum Definition {
+            Input(InputDescription),
+            Measurand(MeasurandDescription),
+        }
+        let def = match parse_value(name, rhs) {
             Some(Err(e)) => return self.fail(e),
-            Some(Ok(input)) => {
-                next.set_input(input);
-                true
-            }
+            Some(Ok(input)) => Definition::Input(input),
             None => {
                 // `formula [unit]`: the unit to report the result in.
                 let (formula, unit) = match rhs
@@ -428,17 +428,15 @@ impl Shell {
                 }
                 let mut m = MeasurandDescription::new(name, formula);
                 m.unit = unit;
-                next.set_measurand(m);
-                false
+                Definition::Measurand(m)
             }
         };
-        // What this statement touches: the name and what uses it.
-        let mut roots = next.dependents(&[name]);
-        if !is_input {
-            roots.push(name.to_string());
-        }
-        let inputs: Vec<&str> = if is_input { vec![name] } else { vec![] };
-        match next.evaluate_part(&roots, &inputs) {
+        // Checked on the part of the model it touches; kept only if good.
+        let part = match &def {
+            Definition::Input(i) => self.session.part_with_input(i),
+            Definition::Measurand(m) => self.session.part_with_measurand(m),
+        };
+        match Session::evaluate(&part) {
             Ok(part) => {
                 let line = match part.model.input(name) {
                     Some(i) => {
@@ -447,7 +445,10 @@ impl Shell {
                     }
                     None => self.result_line(&part.report, name).unwrap_or_default(),
                 };
-                self.session = next;
+                match def {
+                    Definition::Input(i) => self.session.set_input(i),
+                    Definition::Measurand(m) => self.session.set_measurand(m),
+                }
                 self.say(line);
             }
             Err(e) => self.fail(e),
@@ -465,30 +466,25 @@ impl Shell {
             ));
         }
         let rest: Vec<&str> = words.collect();
-        let mut next = self.session.clone();
-        let slot = |s: &mut Session| {
-            s.d.measurands
-                .iter_mut()
-                .find(|m| m.name == name)
-                .map(|m| &mut m.specification)
-                .expect("a measurand")
-                .take()
-        };
-        let _ = slot(&mut next);
         if rest == ["off"] {
-            self.session = next;
+            if let Some(m) = self.session.measurand_mut(name) {
+                m.specification = None;
+            }
             return self.say(format!("{name}: no specification"));
         }
         let spec = match specification(&rest) {
             Ok(s) => s,
             Err(e) => return self.fail(e),
         };
-        if let Some(m) = next.d.measurands.iter_mut().find(|m| m.name == name) {
-            m.specification = Some(spec);
+        let mut part = self.session.part(&[name.to_string()], &[]);
+        if let Some(m) = part.measurands.iter_mut().find(|m| m.name == name) {
+            m.specification = Some(spec.clone());
         }
-        match next.evaluate_part(&[name.to_string()], &[]) {
+        match Session::evaluate(&part) {
             Ok(part) => {
-                self.session = next;
+                if let Some(m) = self.session.measurand_mut(name) {
+                    m.specification = Some(spec);
+                }
                 if let Some(r) = part.report.results.iter().find(|r| r.name == name) {
                     for l in crate::report::conformity_lines(r) {
                         self.say(l);
@@ -659,21 +655,23 @@ impl Shell {
         let Ok(r) = r.parse::<f64>() else {
             return self.say("error: the coefficient must be a number");
         };
-        let mut next = self.session.clone();
-        next.d.correlations.retain(|c| {
-            let [x, y] = &c.inputs;
-            !((x == a && y == b) || (x == b && y == a))
-        });
-        next.d
-            .correlations
-            .push(incertus_gum::description::CorrelationDescription {
-                inputs: [a.to_string(), b.to_string()],
-                coefficient: r,
-            });
-        let roots = next.dependents(&[a, b]);
-        match next.evaluate_part(&roots, &[a, b]) {
+        let c = incertus_gum::description::CorrelationDescription {
+            inputs: [a.to_string(), b.to_string()],
+            coefficient: r,
+        };
+        let same = |x: &incertus_gum::description::CorrelationDescription| {
+            let [p, q] = &x.inputs;
+            (p == a && q == b) || (p == b && q == a)
+        };
+        let mut part = self
+            .session
+            .part(&self.session.dependents(&[a, b]), &[a, b]);
+        part.correlations.retain(|x| !same(x));
+        part.correlations.push(c.clone());
+        match Session::evaluate(&part) {
             Ok(_) => {
-                self.session = next;
+                self.session.d.correlations.retain(|x| !same(x));
+                self.session.d.correlations.push(c);
                 self.say(format!("r({a}, {b}) = {r}"));
             }
             Err(e) => self.fail(e),
@@ -809,9 +807,11 @@ fn specification(words: &[&str]) -> Result<incertus_gum::conformity::Specificati
             "process_sd" => sd = Some(x),
             "guard" => multiple = Some(x),
             "risk" => risk = Some(x),
-            other => return Err(format!(
+            other => {
+                return Err(format!(
                 "unknown key `{other}`: lower, upper, rule, guard, risk, process_mean, process_sd"
-            )),
+            ))
+            }
         }
     }
     if s.lower.is_none() && s.upper.is_none() {

@@ -161,18 +161,6 @@ enum Column {
 #[serde(deny_unknown_fields)]
 pub(crate) struct InputKeys {
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub description: Option<String>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub unit: Option<String>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub constant: Option<String>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub fit: Option<String>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub parameter: Option<String>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub distribution: Option<String>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub value: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub standard_uncertainty: Option<f64>,
@@ -180,6 +168,8 @@ pub(crate) struct InputKeys {
     pub expanded_uncertainty: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub coverage_factor: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub distribution: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub half_width: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -204,6 +194,16 @@ pub(crate) struct InputKeys {
     pub pooled_standard_deviation: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub pooled_dof: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub constant: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fit: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub parameter: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unit: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub description: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sensitivity: Option<SensitivityKeys>,
 }
