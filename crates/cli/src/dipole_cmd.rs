@@ -65,6 +65,7 @@ fn solve(
     } else {
         None
     };
+    crate::name_options(&mut rep);
     rep.notes
         .extend(checked.warnings.iter().map(|w| format!("check: {w}")));
     let style = Style { digits: 2 };

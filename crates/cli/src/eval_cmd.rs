@@ -122,6 +122,10 @@ pub(crate) fn evaluate(
             limits: crate::limits()?,
         },
     )
+    .map(|mut r| {
+        crate::name_options(&mut r);
+        r
+    })
     .map_err(|e| match e.line {
         Some(line) => Failure::input(format!("{}:{line}: {e}", file.display())),
         None => Failure::input(e.to_string()),
@@ -137,6 +141,7 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
             let mc =
                 incertus_mc::run(&model, &report, &s).map_err(|e| Failure::input(e.to_string()))?;
             incertus_mc::attach(&model, &mut report, &mc);
+            crate::name_options(&mut report);
             Some(mc)
         }
         None => None,

@@ -70,9 +70,58 @@ pub struct Failure {
 impl Failure {
     pub fn input(message: impl Into<String>) -> Self {
         Failure {
-            message: message.into(),
+            message: with_options(&message.into()),
             code: EXIT_INPUT,
         }
+    }
+}
+
+/// The library's texts name remedies (propagation of distributions, the
+/// higher-order terms, discarding non-finite trials) without command-line
+/// options; here they get the options that carry them out.
+pub(crate) fn with_options(s: &str) -> String {
+    const OPTIONS: [(&str, &str); 4] = [
+        (
+            "propagation of distributions (JCGM 101:2008)",
+            "propagation of distributions (--mc, JCGM 101:2008)",
+        ),
+        (
+            "Include the higher-order terms or use propagation of distributions",
+            "Include the higher-order terms (--second-order) or use propagation of distributions (--mc)",
+        ),
+        (
+            "The higher-order terms vanish too; use propagation of distributions",
+            "The higher-order terms vanish too; use propagation of distributions (--mc)",
+        ),
+        (
+            "rerun discarding such trials (`Settings::drop_non_finite`;",
+            "rerun with --mc-drop-nonfinite to discard such trials (",
+        ),
+    ];
+    let mut out = s.to_string();
+    for (from, to) in OPTIONS {
+        if out.contains(from) {
+            out = out.replace(from, to);
+        }
+    }
+    out
+}
+
+/// [`with_options`] over every text of a report.
+pub(crate) fn name_options(report: &mut incertus_gum::Report) {
+    for r in &mut report.results {
+        for w in &mut r.warnings {
+            *w = with_options(w);
+        }
+        if let Some(c) = &mut r.conformity {
+            c.statement = with_options(&c.statement);
+            for n in &mut c.notes {
+                *n = with_options(n);
+            }
+        }
+    }
+    for n in &mut report.notes {
+        *n = with_options(n);
     }
 }
 

@@ -20,7 +20,7 @@ use incertus_expr::{derivative, print, simplify, Expr, Kind};
 use serde::Serialize;
 
 use crate::coverage::{coverage_factor, dof_used, effective_dof_correlated};
-use crate::model::{Distribution, Dof, Evaluation, Measurand, Model};
+use crate::model::{Correlation, Distribution, Dof, Evaluation, Measurand, Model};
 
 /// Options of one evaluation.
 #[derive(Clone, Debug, Default)]
@@ -376,7 +376,7 @@ fn near_kinks(model: &Model, f: &Expr, env: &[(&str, f64)], name: &str) -> Vec<S
                 "`{}` in the formula of `{name}`: its argument {} lies within {} standard \
                  uncertainties (u = {}) of {}, where {} has no derivative, so the distribution of the \
                  result reaches that point and the first-order result may be poor; check it by \
-                 propagation of distributions (--mc, JCGM 101:2008)",
+                 propagation of distributions (JCGM 101:2008)",
                 k.text,
                 crate::rounding::significant(v, 6),
                 crate::rounding::significant(distance / u, 2),
@@ -416,63 +416,148 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     if let Err(m) = crate::coverage::check_coverage_probability(p) {
         return Err(perr(format!("the coverage probability {m}"), None));
     }
-    let n = model.inputs.len();
-    let u: Vec<f64> = model
-        .inputs
-        .iter()
-        .map(|i| i.standard_uncertainty)
-        .collect();
-    let input_env: Vec<(&str, f64)> = model
-        .inputs
-        .iter()
-        .map(|i| (i.name.as_str(), i.estimate))
-        .collect();
-    let group_of = groups(model);
-    let mut notes: Vec<String> = Vec::new();
-
-    // Values, in dependency order, each on its own formula (so that an error
-    // points into the text the user wrote).
-    let mut env: Vec<(&str, f64)> = input_env.clone();
-    let mut values = Vec::new();
-    for m in &model.measurands {
-        let v: f64 = m.formula.eval(env.as_slice()).map_err(|e| {
-            perr(
-                format!(
-                    "the formula of `{}` cannot be evaluated at the input estimates: {}",
-                    m.name, e.message
-                ),
-                Some(incertus_expr::caret(&m.formula_text, e.span)),
-            )
-            .at(m.line)
-        })?;
-        env.push((m.name.as_str(), v));
-        values.push(v);
-    }
-
+    let cx = Context {
+        model,
+        opts,
+        p,
+        u: model
+            .inputs
+            .iter()
+            .map(|i| i.standard_uncertainty)
+            .collect(),
+        env: model
+            .inputs
+            .iter()
+            .map(|i| (i.name.as_str(), i.estimate))
+            .collect(),
+        group_of: groups(model),
+    };
+    let values = cx.values()?;
     let expanded = expanded_formulas(model);
+    let mut notes: Vec<String> = Vec::new();
     let mut results = Vec::new();
     let mut sens_rows: Vec<Vec<f64>> = Vec::new();
     let mut grouped_note = false;
     for (mi, m) in model.measurands.iter().enumerate() {
-        let f = &expanded[mi].1;
-        let y = values[mi];
-        if tiny(y) {
-            if let Some(p) = incertus_expr::underflow_points(f, input_env.as_slice()).first() {
-                return Err(underflow(&m.name, &m.name, &p.text).at(m.line));
-            }
+        let first = cx.first_order(m, &expanded[mi].1, values[mi])?;
+        grouped_note |= first
+            .corr_lines
+            .iter()
+            .any(|(cor, _)| model.inputs[cor.a].dof.is_some() || model.inputs[cor.b].dof.is_some());
+        let result = cx
+            .result(m, &expanded[mi].1, values[mi], &first, &mut notes)
+            .map_err(|e| e.at(m.line))?;
+        results.push(result);
+        sens_rows.push(first.c);
+    }
+    if grouped_note {
+        notes.push(
+            "correlated inputs with finite degrees of freedom: ν_eff by Satterthwaite's two-moment match \
+             carried through the correlation terms (inputs whose uncertainties share one estimate, as when \
+             observed together or fitted together, count as one block with its dof; JCGM 100:2008, G.4.1 \
+             when nothing is correlated)"
+                .to_string(),
+        );
+    }
+    let (correlation_matrix, covariance_matrix) = output_covariance(model, &results, &sens_rows);
+    Ok(Report {
+        title: model.title.clone(),
+        fits: model.fits.clone(),
+        results,
+        correlation_matrix,
+        covariance_matrix,
+        notes,
+        effective_dof_rounding: model.dof_rounding,
+    })
+}
+
+/// What every measurand's evaluation shares.
+struct Context<'a> {
+    model: &'a Model,
+    opts: &'a Options,
+    p: f64,
+    /// Standard uncertainties of the inputs (coherent SI).
+    u: Vec<f64>,
+    /// The inputs' estimates by name.
+    env: Vec<(&'a str, f64)>,
+    /// The block (shared estimate of u) of each input, for ν_eff.
+    group_of: Vec<usize>,
+}
+
+/// The first-order result of one measurand before it is reported.
+struct FirstOrder<'m> {
+    /// Sensitivity coefficients (0 for inputs the formula does not use).
+    c: Vec<f64>,
+    formulas: Vec<String>,
+    derivatives: Vec<Option<Expr>>,
+    /// The inputs the formula uses.
+    used: Vec<usize>,
+    /// Largest |c_i u_i|, and the contributions divided by it.
+    s: f64,
+    w: Vec<f64>,
+    corr_lines: Vec<(&'m Correlation, f64)>,
+    corr_sum_scaled: f64,
+    total_scaled: f64,
+    uc: f64,
+    warnings: Vec<String>,
+}
+
+impl<'a> Context<'a> {
+    /// Values, in dependency order, each on its own formula (so that an
+    /// error points into the text the user wrote).
+    fn values(&self) -> Result<Vec<f64>, PropagationError> {
+        let mut env = self.env.clone();
+        let mut values = Vec::with_capacity(self.model.measurands.len());
+        for m in &self.model.measurands {
+            let v: f64 = m.formula.eval(env.as_slice()).map_err(|e| {
+                perr(
+                    format!(
+                        "the formula of `{}` cannot be evaluated at the input estimates: {}",
+                        m.name, e.message
+                    ),
+                    Some(incertus_expr::caret(&m.formula_text, e.span)),
+                )
+                .at(m.line)
+            })?;
+            env.push((m.name.as_str(), v));
+            values.push(v);
         }
-        let mut warnings: Vec<String> = incertus_expr::non_smooth_points(f, input_env.as_slice())
+        Ok(values)
+    }
+
+    /// Warnings about points where the formula has no derivative.
+    fn smoothness_warnings(&self, m: &Measurand, f: &Expr) -> Vec<String> {
+        let mut warnings: Vec<String> = incertus_expr::non_smooth_points(f, self.env.as_slice())
             .into_iter()
             .map(|p| {
                 format!(
                     "`{}` in the formula of `{}`: {}. The law of propagation needs a derivative \
                      (JCGM 100:2008, 5.1.2), so the first-order result does not hold here; use \
-                     propagation of distributions (--mc, JCGM 101:2008)",
+                     propagation of distributions (JCGM 101:2008)",
                     p.text, m.name, p.what
                 )
             })
             .collect();
-        warnings.extend(near_kinks(model, f, &input_env, &m.name));
+        warnings.extend(near_kinks(self.model, f, &self.env, &m.name));
+        warnings
+    }
+
+    /// Sensitivity coefficients, scaled contributions and u_c of one
+    /// measurand given by `f` (in terms of the inputs), with value `y`.
+    fn first_order(
+        &self,
+        m: &Measurand,
+        f: &Expr,
+        y: f64,
+    ) -> Result<FirstOrder<'a>, PropagationError> {
+        let model = self.model;
+        let n = model.inputs.len();
+        if tiny(y) {
+            if let Some(p) = incertus_expr::underflow_points(f, self.env.as_slice()).first() {
+                return Err(underflow(&m.name, &m.name, &p.text).at(m.line));
+            }
+        }
+        let warnings = self.smoothness_warnings(m, f);
         let mut c = vec![0.0; n];
         let mut formulas = vec![String::new(); n];
         let mut derivatives: Vec<Option<Expr>> = vec![None; n];
@@ -482,9 +567,9 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             if !f.depends_on(name) {
                 continue;
             }
-            let d = checked_derivative(f, name, opts.limits.max_derivative_nodes, &m.name)
+            let d = checked_derivative(f, name, self.opts.limits.max_derivative_nodes, &m.name)
                 .map_err(|e| e.at(m.line))?;
-            let ci: f64 = d.eval(input_env.as_slice()).map_err(|e| {
+            c[i] = d.eval(self.env.as_slice()).map_err(|e| {
                 perr(
                     format!(
                         "the sensitivity coefficient of `{name}` in `{}` is not defined at the input \
@@ -500,14 +585,13 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 )
                 .at(m.line)
             })?;
-            c[i] = ci;
             formulas[i] = print(&d);
             derivatives[i] = Some(d);
             used.push(i);
         }
-
         // Scaled contributions w_i = c_i u_i / s avoid under- and overflow
         // of squares and fourth powers (u near 1e-40 or 1e40).
+        let u = &self.u;
         let s = used
             .iter()
             .map(|&i| (c[i] * u[i]).abs())
@@ -515,99 +599,54 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         let w: Vec<f64> = (0..n)
             .map(|i| if s > 0.0 { c[i] * u[i] / s } else { 0.0 })
             .collect();
-        let mut sum_sq = 0.0;
-        for &i in &used {
-            sum_sq += w[i] * w[i];
-        }
+        let sum_sq: f64 = used.iter().map(|&i| w[i] * w[i]).sum();
         let mut corr_lines = Vec::new();
         let mut corr_sum_scaled = 0.0;
-        for cor in &model.correlations {
-            if used.contains(&cor.a) && used.contains(&cor.b) {
-                let t = 2.0 * w[cor.a] * w[cor.b] * cor.coefficient;
-                corr_sum_scaled += t;
-                corr_lines.push((cor, t));
+        if !model.correlations.is_empty() {
+            let in_use: std::collections::HashSet<usize> = used.iter().copied().collect();
+            for cor in &model.correlations {
+                if in_use.contains(&cor.a) && in_use.contains(&cor.b) {
+                    let t = 2.0 * w[cor.a] * w[cor.b] * cor.coefficient;
+                    corr_sum_scaled += t;
+                    corr_lines.push((cor, t));
+                }
             }
         }
         let total_scaled = (sum_sq + corr_sum_scaled).max(0.0);
         let uc = s * total_scaled.sqrt();
-        if !uc.is_finite() {
-            return Err(perr(
-                format!(
-                    "the combined standard uncertainty of `{}` is not a finite number: a contribution \
-                     c·u(x) exceeds the range of double precision (about 1.8e308); express the model in \
-                     units that keep its values well inside that range",
-                    m.name
-                ),
-                None,
-            )
-            .at(m.line));
-        }
-        let subnormal = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
-        if subnormal(y) || subnormal(uc) {
-            return Err(perr(
-                format!(
-                    "the result of `{}` or its uncertainty lies below the normal range of double \
-                     precision (about 2.2e-308), where digits are lost to underflow; express the model \
-                     in units that keep its values well inside that range",
-                    m.name
-                ),
-                None,
-            )
-            .at(m.line));
-        }
-        let share = |t: f64| {
-            if total_scaled > 0.0 {
-                t / total_scaled
-            } else {
-                0.0
-            }
-        };
+        check_range(m, y, uc)?;
+        Ok(FirstOrder {
+            c,
+            formulas,
+            derivatives,
+            used,
+            s,
+            w,
+            corr_lines,
+            corr_sum_scaled,
+            total_scaled,
+            uc,
+            warnings,
+        })
+    }
 
-        // Second-order terms (JCGM 100:2008, 5.1.2 note, eq. 10 extended).
-        let second = if opts.second_order {
-            Some(
-                second_order(
-                    model,
-                    m.name.as_str(),
-                    f,
-                    &used,
-                    &u,
-                    uc,
-                    &input_env,
-                    opts.limits.max_derivative_nodes,
-                )
-                .map_err(|e| e.at(m.line))?,
-            )
-        } else {
-            None
-        };
-        if opts.second_order
-            && used.iter().any(|&i| {
-                !matches!(
-                    model.inputs[i].distribution,
-                    Distribution::Normal | Distribution::StudentT | Distribution::Exact
-                )
-            })
-        {
-            notes.push(format!(
-                "`{}`: the higher-order terms of JCGM 100:2008, 5.1.2 assume normal inputs; some inputs \
-                 here are not normal, so propagation of distributions is the better check",
-                m.name
-            ));
-        }
-        // Effective dof: Welch-Satterthwaite generalised to correlated
-        // inputs by Satterthwaite's two moments (coverage::effective_dof_correlated;
-        // G.4.1 when nothing is correlated).
-        let block: Vec<usize> = used.iter().map(|&i| group_of[i]).collect();
-        let block_dof: Vec<Dof> = used.iter().map(|&i| model.inputs[i].dof).collect();
-        let wu: Vec<f64> = used.iter().map(|&i| w[i]).collect();
-        if corr_lines
-            .iter()
-            .any(|(cor, _)| model.inputs[cor.a].dof.is_some() || model.inputs[cor.b].dof.is_some())
-        {
-            grouped_note = true;
-        }
-        let nu_eff = if uc > 0.0 {
+    /// ν_eff: Welch-Satterthwaite generalised to correlated inputs by
+    /// Satterthwaite's two moments (coverage::effective_dof_correlated; G.4.1
+    /// when nothing is correlated); with u from higher-order terms alone, the
+    /// least dof of the uncertain inputs.
+    fn effective_dof(
+        &self,
+        m: &Measurand,
+        first: &FirstOrder,
+        second: Option<f64>,
+        notes: &mut Vec<String>,
+    ) -> Dof {
+        let model = self.model;
+        let used = &first.used;
+        if first.uc > 0.0 {
+            let block: Vec<usize> = used.iter().map(|&i| self.group_of[i]).collect();
+            let block_dof: Vec<Dof> = used.iter().map(|&i| model.inputs[i].dof).collect();
+            let wu: Vec<f64> = used.iter().map(|&i| first.w[i]).collect();
             // Correlated pairs as indices into `used`.
             let position: std::collections::HashMap<usize, usize> =
                 used.iter().enumerate().map(|(k, &i)| (i, k)).collect();
@@ -616,35 +655,118 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 .iter()
                 .filter_map(|c| Some((*position.get(&c.a)?, *position.get(&c.b)?, c.coefficient)))
                 .collect();
-            effective_dof_correlated(&wu, &pairs, &block, &block_dof)
-        } else if second.is_some_and(|v| v > 0.0) {
-            // Only higher-order terms: no Welch-Satterthwaite weights exist;
-            // the least dof of the uncertain inputs is the conservative
-            // choice (common practice, no published source).
-            let least = used
-                .iter()
-                .filter(|&&i| u[i] > 0.0)
-                .filter_map(|&i| model.inputs[i].dof)
-                .fold(None, |m: Option<f64>, d| Some(m.map_or(d, |m| m.min(d))));
-            if least.is_some() {
-                notes.push(format!(
-                    "`{}`: u comes from the higher-order terms alone, so ν_eff is taken as the least dof \
-                     of its inputs",
-                    m.name
-                ));
-            }
-            least
-        } else {
-            None
-        };
-        let nu_used = dof_used(nu_eff, model.dof_rounding);
-        if nu_eff.is_some_and(|v| v < 1.0) {
+            return effective_dof_correlated(&wu, &pairs, &block, &block_dof);
+        }
+        if !second.is_some_and(|v| v > 0.0) {
+            return None;
+        }
+        // No Welch-Satterthwaite weights exist; the least dof of the
+        // uncertain inputs is the conservative choice (common practice, no
+        // published source).
+        let least = used
+            .iter()
+            .filter(|&&i| self.u[i] > 0.0)
+            .filter_map(|&i| model.inputs[i].dof)
+            .fold(None, |m: Option<f64>, d| Some(m.map_or(d, |m| m.min(d))));
+        if least.is_some() {
             notes.push(format!(
-                "`{}`: the effective degrees of freedom ({:.3}) are below 1; 1 is used for the coverage factor",
-                m.name,
-                nu_eff.expect("checked")
+                "`{}`: u comes from the higher-order terms alone, so ν_eff is taken as the least dof \
+                 of its inputs",
+                m.name
             ));
         }
+        least
+    }
+
+    /// Second-order terms (JCGM 100:2008, 5.1.2 note, eq. 10 extended) when
+    /// asked for, with a note when inputs are not normal.
+    fn second_order(
+        &self,
+        m: &Measurand,
+        f: &Expr,
+        first: &FirstOrder,
+        notes: &mut Vec<String>,
+    ) -> Result<Option<f64>, PropagationError> {
+        if !self.opts.second_order {
+            return Ok(None);
+        }
+        let model = self.model;
+        if first.used.iter().any(|&i| {
+            !matches!(
+                model.inputs[i].distribution,
+                Distribution::Normal | Distribution::StudentT | Distribution::Exact
+            )
+        }) {
+            notes.push(format!(
+                "`{}`: the higher-order terms of JCGM 100:2008, 5.1.2 assume normal inputs; some inputs \
+                 here are not normal, so propagation of distributions is the better check",
+                m.name
+            ));
+        }
+        second_order(
+            model,
+            m.name.as_str(),
+            f,
+            &first.used,
+            &self.u,
+            first.uc,
+            &self.env,
+            self.opts.limits.max_derivative_nodes,
+        )
+        .map(Some)
+    }
+
+    /// The warning for a zero u with uncertain inputs: the inputs whose
+    /// derivative is not zero everywhere (one that simplifies to 0, as in
+    /// `q - x*y` with q = x*y, means the input does not really enter).
+    fn flat_warning(&self, m: &Measurand, first: &FirstOrder) -> Option<String> {
+        let uncertain: Vec<&str> = first
+            .used
+            .iter()
+            .filter(|&&i| self.u[i] > 0.0)
+            .filter(|&&i| {
+                first.derivatives[i]
+                    .as_ref()
+                    .is_some_and(|d| !matches!(simplify(d).kind, Kind::Num(v) if v == 0.0))
+            })
+            .map(|&i| self.model.inputs[i].name.as_str())
+            .collect();
+        if uncertain.is_empty() {
+            return None;
+        }
+        Some(format!(
+            "the first-order standard uncertainty of `{}` is 0 although uncertain inputs enter \
+             its formula ({}): every sensitivity coefficient vanishes at the estimates, so the \
+             result is flat to first order there, not certain (JCGM 100:2008, 5.1.2, note). {}",
+            m.name,
+            uncertain.join(", "),
+            if self.opts.second_order {
+                "The higher-order terms vanish too; use propagation of distributions"
+            } else {
+                "Include the higher-order terms or use propagation of distributions"
+            }
+        ))
+    }
+
+    /// The reported result of one measurand from its first-order parts.
+    fn result(
+        &self,
+        m: &Measurand,
+        f: &Expr,
+        y: f64,
+        first: &FirstOrder,
+        notes: &mut Vec<String>,
+    ) -> Result<MeasurandResult, PropagationError> {
+        let second = self.second_order(m, f, first, notes)?;
+        let nu_eff = self.effective_dof(m, first, second, notes);
+        let nu_used = dof_used(nu_eff, self.model.dof_rounding);
+        if let Some(v) = nu_eff.filter(|v| *v < 1.0) {
+            notes.push(format!(
+                "`{}`: the effective degrees of freedom ({v:.3}) are below 1; 1 is used for the coverage factor",
+                m.name,
+            ));
+        }
+        let p = self.p;
         let k = coverage_factor(p, nu_used);
         if !k.is_finite() {
             return Err(perr(
@@ -655,71 +777,93 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                     nu_used.map_or("infinite".to_string(), |v| v.to_string())
                 ),
                 None,
-            )
-            .at(m.line));
-        }
-
-        let u_for_expanded = second.unwrap_or(uc);
-        // Only when u is 0: the inputs whose derivative is not zero everywhere
-        // (one that simplifies to 0, as in `q - x*y` with q = x*y, means the
-        // input does not really enter the result).
-        let uncertain: Vec<&str> = if u_for_expanded == 0.0 {
-            used.iter()
-                .filter(|&&i| u[i] > 0.0)
-                .filter(|&&i| {
-                    derivatives[i]
-                        .as_ref()
-                        .is_some_and(|d| !matches!(simplify(d).kind, Kind::Num(v) if v == 0.0))
-                })
-                .map(|&i| model.inputs[i].name.as_str())
-                .collect()
-        } else {
-            Vec::new()
-        };
-        if u_for_expanded == 0.0 && !uncertain.is_empty() {
-            warnings.push(format!(
-                "the first-order standard uncertainty of `{}` is 0 although uncertain inputs enter \
-                 its formula ({}): every sensitivity coefficient vanishes at the estimates, so the \
-                 result is flat to first order there, not certain (JCGM 100:2008, 5.1.2, note). {}",
-                m.name,
-                uncertain.join(", "),
-                if opts.second_order {
-                    "The higher-order terms vanish too; use propagation of distributions (--mc)"
-                } else {
-                    "Include the higher-order terms (--second-order) or use propagation of \
-                     distributions (--mc)"
-                }
             ));
         }
-
+        let u_for_expanded = second.unwrap_or(first.uc);
+        let mut warnings = first.warnings.clone();
+        if u_for_expanded == 0.0 {
+            warnings.extend(self.flat_warning(m, first));
+        }
         let f_out = m.unit_factor();
         let y_shown = m.shown_value(y);
-        let budget = used
+        let (budget, correlation_budget) = self.budget(first, f_out);
+        let big_u = k * u_for_expanded / f_out;
+        let mut result = MeasurandResult {
+            name: m.name.clone(),
+            unit: m.unit.clone(),
+            description: m.description.clone(),
+            formula: m.formula_text.clone(),
+            value: y_shown,
+            standard_uncertainty: first.uc / f_out,
+            relative_standard_uncertainty: (y_shown != 0.0)
+                .then(|| first.uc / f_out / y_shown.abs()),
+            effective_dof: nu_eff,
+            effective_dof_used: nu_used,
+            coverage_probability: p,
+            coverage_factor: k,
+            expanded_uncertainty: big_u,
+            second_order_standard_uncertainty: second.map(|v| v / f_out),
+            budget,
+            correlation_terms: first.corr_sum_scaled * first.s * first.s / (f_out * f_out),
+            correlation_budget,
+            monte_carlo: None,
+            conformity: None,
+            warnings,
+            reported: ReportedResult {
+                method: Method::FirstOrder,
+                why: "the law of propagation of uncertainty (JCGM 100:2008)".into(),
+                value: y_shown,
+                standard_uncertainty: u_for_expanded / f_out,
+                coverage_probability: p,
+                coverage_interval: [y_shown - big_u, y_shown + big_u],
+                expanded_uncertainty: big_u,
+            },
+        };
+        if let Some(spec) = &m.specification {
+            assess_conformity(&mut result, spec, p, m.unit.as_deref())?;
+        }
+        Ok(result)
+    }
+
+    /// The budget lines and correlation lines, in the inputs' and the
+    /// measurand's own units: a coefficient becomes c·f_in/f_out, a
+    /// contribution |c| u / f_out.
+    fn budget(&self, first: &FirstOrder, f_out: f64) -> (Vec<BudgetLine>, Vec<CorrelationLine>) {
+        let model = self.model;
+        let share = |t: f64| {
+            if first.total_scaled > 0.0 {
+                t / first.total_scaled
+            } else {
+                0.0
+            }
+        };
+        let budget = first
+            .used
             .iter()
             .map(|&i| {
                 let inp = &model.inputs[i];
                 let (evaluation, observations) = label(model, i);
-                // Shown in the input's and the measurand's own units: the
-                // coefficient becomes c·f_in/f_out, the contribution |c| u / f_out.
                 let f_in = inp.unit_factor();
                 BudgetLine {
                     input: inp.name.clone(),
                     value: inp.shown().0,
-                    standard_uncertainty: u[i] / f_in,
+                    standard_uncertainty: self.u[i] / f_in,
                     dof: inp.dof,
                     distribution: inp.distribution.name().to_string(),
                     evaluation,
                     observations,
                     unit: inp.unit.clone(),
                     description: inp.description.clone(),
-                    sensitivity: c[i] * f_in / f_out,
-                    sensitivity_formula: formulas[i].clone(),
-                    contribution: (c[i] * u[i]).abs() / f_out,
-                    share: share(w[i] * w[i]),
+                    sensitivity: first.c[i] * f_in / f_out,
+                    sensitivity_formula: first.formulas[i].clone(),
+                    contribution: (first.c[i] * self.u[i]).abs() / f_out,
+                    share: share(first.w[i] * first.w[i]),
                 }
             })
             .collect();
-        let correlation_budget: Vec<CorrelationLine> = corr_lines
+        let s = first.s;
+        let lines = first
+            .corr_lines
             .iter()
             .map(|(cor, t)| CorrelationLine {
                 inputs: [
@@ -733,104 +877,99 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
                 from_fit: cor.from_fit.clone(),
             })
             .collect();
-        results.push(MeasurandResult {
-            name: m.name.clone(),
-            unit: m.unit.clone(),
-            description: m.description.clone(),
-            formula: m.formula_text.clone(),
-            value: y_shown,
-            standard_uncertainty: uc / f_out,
-            relative_standard_uncertainty: (y_shown != 0.0).then(|| uc / f_out / y_shown.abs()),
-            effective_dof: nu_eff,
-            effective_dof_used: nu_used,
-            coverage_probability: p,
-            coverage_factor: k,
-            expanded_uncertainty: k * u_for_expanded / f_out,
-            second_order_standard_uncertainty: second.map(|v| v / f_out),
-            budget,
-            correlation_terms: corr_sum_scaled * s * s / (f_out * f_out),
-            correlation_budget,
-            monte_carlo: None,
-            conformity: None,
-            warnings,
-            reported: ReportedResult {
-                method: Method::FirstOrder,
-                why: "the law of propagation of uncertainty (JCGM 100:2008)".into(),
-                value: y_shown,
-                standard_uncertainty: u_for_expanded / f_out,
-                coverage_probability: p,
-                coverage_interval: [
-                    y_shown - k * u_for_expanded / f_out,
-                    y_shown + k * u_for_expanded / f_out,
-                ],
-                expanded_uncertainty: k * u_for_expanded / f_out,
-            },
-        });
-        if let Some(spec) = &m.specification {
-            let r = results.last_mut().expect("just pushed");
-            let belief = crate::conformity::Belief {
-                value: r.value,
-                standard_uncertainty: r.expanded_uncertainty / r.coverage_factor,
-                dof: r.effective_dof_used,
-            };
-            r.conformity = Some(
-                crate::conformity::assess(
-                    spec,
-                    belief,
-                    r.expanded_uncertainty,
-                    r.coverage_factor,
-                    p,
-                    m.unit.as_deref(),
-                )
-                .map_err(|e| perr(format!("measurand `{}`: {e}", m.name), None).at(m.line))?,
-            );
-            if !r.warnings.is_empty() {
-                let c = r.conformity.as_mut().expect("just assessed");
-                c.statement = format!(
-                    "NOT VALID WITHOUT REVIEW: the first-order result of `{}` this decision rests on \
-                     is not reliable here ({} warning{} with the result; check it by propagation of \
-                     distributions). {}",
-                    r.name,
-                    r.warnings.len(),
-                    if r.warnings.len() == 1 { "" } else { "s" },
-                    c.statement
-                );
-                c.notes.extend(r.warnings.iter().cloned());
-            }
-        }
-        sens_rows.push(c);
+        (budget, lines)
     }
-    if grouped_note {
-        notes.push(
-            "correlated inputs with finite degrees of freedom: ν_eff by Satterthwaite's two-moment match \
-             carried through the correlation terms (inputs whose uncertainties share one estimate, as when \
-             observed together or fitted together, count as one block with its dof; JCGM 100:2008, G.4.1 \
-             when nothing is correlated)"
-                .to_string(),
-        );
-    }
+}
 
-    // Covariance of the measurands: C V Cᵀ (JCGM 102:2011, 6.2.1.3).
+/// A result and its uncertainty must be finite and normal numbers.
+fn check_range(m: &Measurand, y: f64, uc: f64) -> Result<(), PropagationError> {
+    if !uc.is_finite() {
+        return Err(perr(
+            format!(
+                "the combined standard uncertainty of `{}` is not a finite number: a contribution \
+                 c·u(x) exceeds the range of double precision (about 1.8e308); express the model in \
+                 units that keep its values well inside that range",
+                m.name
+            ),
+            None,
+        )
+        .at(m.line));
+    }
+    let subnormal = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
+    if subnormal(y) || subnormal(uc) {
+        return Err(perr(
+            format!(
+                "the result of `{}` or its uncertainty lies below the normal range of double \
+                 precision (about 2.2e-308), where digits are lost to underflow; express the model \
+                 in units that keep its values well inside that range",
+                m.name
+            ),
+            None,
+        )
+        .at(m.line));
+    }
+    Ok(())
+}
+
+/// The conformity assessment of a result (JCGM 106:2012); a decision on a
+/// result with warnings is marked for review.
+fn assess_conformity(
+    r: &mut MeasurandResult,
+    spec: &crate::conformity::Specification,
+    p: f64,
+    unit: Option<&str>,
+) -> Result<(), PropagationError> {
+    let belief = crate::conformity::Belief {
+        value: r.value,
+        standard_uncertainty: r.expanded_uncertainty / r.coverage_factor,
+        dof: r.effective_dof_used,
+    };
+    let mut c = crate::conformity::assess(
+        spec,
+        belief,
+        r.expanded_uncertainty,
+        r.coverage_factor,
+        p,
+        unit,
+    )
+    .map_err(|e| perr(format!("measurand `{}`: {e}", r.name), None))?;
+    if !r.warnings.is_empty() {
+        c.statement = format!(
+            "NOT VALID WITHOUT REVIEW: the first-order result of `{}` this decision rests on \
+             is not reliable here ({} warning{} with the result; check it by propagation of \
+             distributions). {}",
+            r.name,
+            r.warnings.len(),
+            if r.warnings.len() == 1 { "" } else { "s" },
+            c.statement
+        );
+        c.notes.extend(r.warnings.iter().cloned());
+    }
+    r.conformity = Some(c);
+    Ok(())
+}
+
+/// Correlation and covariance of the measurands: C V Cᵀ (JCGM 102:2011,
+/// 6.2.1.3), in the measurands' units; the diagonal from the scaled
+/// computation, for consistency.
+fn output_covariance(
+    model: &Model,
+    results: &[MeasurandResult],
+    sens_rows: &[Vec<f64>],
+) -> (NamedMatrix, NamedMatrix) {
     let v = model.covariance();
     let m = results.len();
-    let mut cov = vec![vec![0.0; m]; m];
-    for a in 0..m {
-        for b in 0..=a {
-            let q = crate::matrix::quad(&sens_rows[a], &v, &sens_rows[b]);
-            cov[a][b] = q;
-            cov[b][a] = q;
-        }
-    }
-    // In the measurands' units; the diagonal from the scaled computation
-    // above, for consistency.
     let f: Vec<f64> = model
         .measurands
         .iter()
         .map(Measurand::unit_factor)
         .collect();
+    let mut cov = vec![vec![0.0; m]; m];
     for a in 0..m {
-        for b in 0..m {
-            cov[a][b] /= f[a] * f[b];
+        for b in 0..=a {
+            let q = crate::matrix::quad(&sens_rows[a], &v, &sens_rows[b]) / (f[a] * f[b]);
+            cov[a][b] = q;
+            cov[b][a] = q;
         }
     }
     for (a, r) in results.iter().enumerate() {
@@ -853,18 +992,13 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         }
     }
     let names: Vec<String> = results.iter().map(|r| r.name.clone()).collect();
-    Ok(Report {
-        title: model.title.clone(),
-        fits: model.fits.clone(),
-        results,
-        correlation_matrix: NamedMatrix {
+    (
+        NamedMatrix {
             names: names.clone(),
             matrix: corr,
         },
-        covariance_matrix: NamedMatrix { names, matrix: cov },
-        notes,
-        effective_dof_rounding: model.dof_rounding,
-    })
+        NamedMatrix { names, matrix: cov },
+    )
 }
 
 /// u_c with the higher-order terms of JCGM 100:2008, 5.1.2 (note):

@@ -76,7 +76,7 @@ fn vanishing_first_order_terms_are_never_silent() {
             y.warnings
                 .iter()
                 .any(|w| w.contains("is 0 although uncertain inputs")
-                    && w.contains("--second-order")),
+                    && w.contains("higher-order terms")),
             "{formula}: {:?}",
             y.warnings
         );
@@ -112,7 +112,8 @@ fn points_without_a_derivative_are_named() {
                 let w = &r.results[0].warnings;
                 assert!(
                     w.iter()
-                        .any(|w| w.contains("--mc") && w.contains("derivative")),
+                        .any(|w| w.contains("propagation of distributions")
+                            && w.contains("derivative")),
                     "{formula}: {w:?}"
                 );
                 assert!(
@@ -123,7 +124,8 @@ fn points_without_a_derivative_are_named() {
             }
             // A refusal is fine too, if it names the function.
             Err(e) => assert!(
-                e.to_string().contains(function) && e.to_string().contains("--mc"),
+                e.to_string().contains(function)
+                    && e.to_string().contains("propagation of distributions"),
                 "{formula}: {e}"
             ),
         }
@@ -174,9 +176,23 @@ fn points_within_reach_of_the_uncertainty_are_named_too() {
         let m = two_inputs(x1, 0.1, x2, 0.1, formula);
         let r = propagate(&m, &Options::default()).unwrap();
         let w = &r.results[0].warnings;
-        let found = w
-            .iter()
-            .any(|w| w.contains("standard uncertainties") && w.contains("--mc"));
+        let found = w.iter().any(|w| {
+            w.contains("standard uncertainties") && w.contains("propagation of distributions")
+        });
         assert_eq!(found, near, "{formula} at {x1}, {x2}: {w:?}");
+    }
+}
+
+/// The library names remedies, never command-line options: those are the
+/// program's (it adds them to what it prints, tests/cli_first_order.rs).
+#[test]
+fn library_texts_name_no_command_line_options() {
+    for formula in ["x1*x2", "abs(x1 - x2)", "sqrt(x1^2)"] {
+        let m = two_inputs(0.0, 0.1, 0.0, 0.2, formula);
+        if let Ok(r) = propagate(&m, &Options::default()) {
+            for w in r.results.iter().flat_map(|r| &r.warnings).chain(&r.notes) {
+                assert!(!w.contains("--"), "{formula}: {w}");
+            }
+        }
     }
 }

@@ -828,8 +828,8 @@ fn handle_non_finite(
     Err(McError(format!(
         "{} of {n} trials gave a value of `{}` that is not a finite number{why}; the first is trial {} \
          at {}. The model is not defined everywhere the input distributions reach: check the model \
-         and the distributions, or rerun with --mc-drop-nonfinite to discard such trials (the report \
-         then states how many)",
+         and the distributions, or rerun discarding such trials (`Settings::drop_non_finite`; the \
+         report then states how many)",
         counts[j],
         model.measurands[j].name,
         bad.trial,

@@ -219,7 +219,7 @@ fn non_finite_trials_are_an_error_or_dropped_and_counted() {
         err.0
     );
     assert!(err.0.contains("logarithm"), "{}", err.0);
-    assert!(err.0.contains("--mc-drop-nonfinite"));
+    assert!(err.0.contains("discarding such trials"));
     let out = run(
         &m,
         &r,

@@ -299,7 +299,9 @@ impl Session {
     /// Validate and propagate a part.
     pub fn evaluate(part: &ModelDescription) -> Result<Part, String> {
         let model = part.validate_draft().map_err(|e| message(&e))?;
-        let report = propagate(&model, &Options::default()).map_err(|e| e.to_string())?;
+        let mut report = propagate(&model, &Options::default())
+            .map_err(|e| crate::with_options(&e.to_string()))?;
+        crate::name_options(&mut report);
         Ok(Part { model, report })
     }
 
