@@ -196,110 +196,115 @@ fn raw(e: &Expr, w: &str) -> Expr {
         }
         Kind::Pow(b, x) => d_pow(e, b, x, w),
         Kind::Call(Func::Pow, args) => d_pow(e, &args[0], &args[1], w),
-        Kind::Call(f, args) => {
-            let u = &args[0];
-            let du = raw(u, w);
-            let uc = || u.clone();
-            let outer = match f {
-                Func::Sqrt => div(num(1.0, s), mul(vec![num(2.0, s), e.clone()], s), s),
-                Func::Cbrt => div(num(1.0, s), mul(vec![num(3.0, s), sq(e.clone(), s)], s), s),
-                Func::Exp => e.clone(),
-                Func::Ln => div(num(1.0, s), uc(), s),
-                Func::Log10 => div(
-                    num(1.0, s),
-                    mul(vec![uc(), call(Func::Ln, num(10.0, s), s)], s),
-                    s,
-                ),
-                Func::Log2 => div(
-                    num(1.0, s),
-                    mul(vec![uc(), call(Func::Ln, num(2.0, s), s)], s),
-                    s,
-                ),
-                Func::Sin => call(Func::Cos, uc(), s),
-                Func::Cos => neg(call(Func::Sin, uc(), s), s),
-                Func::Tan => div(num(1.0, s), sq(call(Func::Cos, uc(), s), s), s),
-                Func::Asin | Func::Acos => {
-                    let r = div(
-                        num(1.0, s),
-                        call(
-                            Func::Sqrt,
-                            add(vec![(false, num(1.0, s)), (true, sq(uc(), s))], s),
-                            s,
-                        ),
-                        s,
-                    );
-                    if *f == Func::Acos {
-                        neg(r, s)
-                    } else {
-                        r
-                    }
-                }
-                Func::Atan => div(
-                    num(1.0, s),
-                    add(vec![(false, num(1.0, s)), (false, sq(uc(), s))], s),
-                    s,
-                ),
-                Func::Sinh => call(Func::Cosh, uc(), s),
-                Func::Cosh => call(Func::Sinh, uc(), s),
-                Func::Tanh => div(num(1.0, s), sq(call(Func::Cosh, uc(), s), s), s),
-                Func::Asinh => div(
-                    num(1.0, s),
-                    call(
-                        Func::Sqrt,
-                        add(vec![(false, sq(uc(), s)), (false, num(1.0, s))], s),
-                        s,
-                    ),
-                    s,
-                ),
-                Func::Acosh => div(
-                    num(1.0, s),
-                    call(
-                        Func::Sqrt,
-                        add(vec![(false, sq(uc(), s)), (true, num(1.0, s))], s),
-                        s,
-                    ),
-                    s,
-                ),
-                Func::Atanh => div(
-                    num(1.0, s),
+        Kind::Call(f, args) => d_call(e, *f, args, w),
+    }
+}
+
+/// The chain rule through a built-in function: f'(u)·u' (atan2 and hypot
+/// by their two-argument rules).
+fn d_call(e: &Expr, f: Func, args: &[Expr], w: &str) -> Expr {
+    let s = e.span;
+    let u = &args[0];
+    let du = raw(u, w);
+    let uc = || u.clone();
+    let outer = match f {
+        Func::Sqrt => div(num(1.0, s), mul(vec![num(2.0, s), e.clone()], s), s),
+        Func::Cbrt => div(num(1.0, s), mul(vec![num(3.0, s), sq(e.clone(), s)], s), s),
+        Func::Exp => e.clone(),
+        Func::Ln => div(num(1.0, s), uc(), s),
+        Func::Log10 => div(
+            num(1.0, s),
+            mul(vec![uc(), call(Func::Ln, num(10.0, s), s)], s),
+            s,
+        ),
+        Func::Log2 => div(
+            num(1.0, s),
+            mul(vec![uc(), call(Func::Ln, num(2.0, s), s)], s),
+            s,
+        ),
+        Func::Sin => call(Func::Cos, uc(), s),
+        Func::Cos => neg(call(Func::Sin, uc(), s), s),
+        Func::Tan => div(num(1.0, s), sq(call(Func::Cos, uc(), s), s), s),
+        Func::Asin | Func::Acos => {
+            let r = div(
+                num(1.0, s),
+                call(
+                    Func::Sqrt,
                     add(vec![(false, num(1.0, s)), (true, sq(uc(), s))], s),
                     s,
                 ),
-                Func::Abs => call(Func::Sign, uc(), s),
-                Func::Sign => num(0.0, s),
-                Func::Atan2 => {
-                    // atan2(y, x): (x·y' − y·x') / (x² + y²)
-                    let (y, x) = (&args[0], &args[1]);
-                    let top = add(
-                        vec![
-                            (false, mul(vec![x.clone(), raw(y, w)], s)),
-                            (true, mul(vec![y.clone(), raw(x, w)], s)),
-                        ],
-                        s,
-                    );
-                    let bottom = add(
-                        vec![(false, sq(x.clone(), s)), (false, sq(y.clone(), s))],
-                        s,
-                    );
-                    return div(top, bottom, s);
-                }
-                Func::Hypot => {
-                    // hypot(a, b): (a·a' + b·b') / hypot(a, b)
-                    let (a, b) = (&args[0], &args[1]);
-                    let top = add(
-                        vec![
-                            (false, mul(vec![a.clone(), raw(a, w)], s)),
-                            (false, mul(vec![b.clone(), raw(b, w)], s)),
-                        ],
-                        s,
-                    );
-                    return div(top, e.clone(), s);
-                }
-                Func::Pow => unreachable!("pow is handled with the power rule above"),
-            };
-            mul(vec![outer, du], s)
+                s,
+            );
+            if f == Func::Acos {
+                neg(r, s)
+            } else {
+                r
+            }
         }
-    }
+        Func::Atan => div(
+            num(1.0, s),
+            add(vec![(false, num(1.0, s)), (false, sq(uc(), s))], s),
+            s,
+        ),
+        Func::Sinh => call(Func::Cosh, uc(), s),
+        Func::Cosh => call(Func::Sinh, uc(), s),
+        Func::Tanh => div(num(1.0, s), sq(call(Func::Cosh, uc(), s), s), s),
+        Func::Asinh => div(
+            num(1.0, s),
+            call(
+                Func::Sqrt,
+                add(vec![(false, sq(uc(), s)), (false, num(1.0, s))], s),
+                s,
+            ),
+            s,
+        ),
+        Func::Acosh => div(
+            num(1.0, s),
+            call(
+                Func::Sqrt,
+                add(vec![(false, sq(uc(), s)), (true, num(1.0, s))], s),
+                s,
+            ),
+            s,
+        ),
+        Func::Atanh => div(
+            num(1.0, s),
+            add(vec![(false, num(1.0, s)), (true, sq(uc(), s))], s),
+            s,
+        ),
+        Func::Abs => call(Func::Sign, uc(), s),
+        Func::Sign => num(0.0, s),
+        Func::Atan2 => {
+            // atan2(y, x): (x·y' − y·x') / (x² + y²)
+            let (y, x) = (&args[0], &args[1]);
+            let top = add(
+                vec![
+                    (false, mul(vec![x.clone(), raw(y, w)], s)),
+                    (true, mul(vec![y.clone(), raw(x, w)], s)),
+                ],
+                s,
+            );
+            let bottom = add(
+                vec![(false, sq(x.clone(), s)), (false, sq(y.clone(), s))],
+                s,
+            );
+            return div(top, bottom, s);
+        }
+        Func::Hypot => {
+            // hypot(a, b): (a·a' + b·b') / hypot(a, b)
+            let (a, b) = (&args[0], &args[1]);
+            let top = add(
+                vec![
+                    (false, mul(vec![a.clone(), raw(a, w)], s)),
+                    (false, mul(vec![b.clone(), raw(b, w)], s)),
+                ],
+                s,
+            );
+            return div(top, e.clone(), s);
+        }
+        Func::Pow => unreachable!("pow is handled with the power rule above"),
+    };
+    mul(vec![outer, du], s)
 }
 
 fn d_pow(e: &Expr, b: &Expr, x: &Expr, w: &str) -> Expr {

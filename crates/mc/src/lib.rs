@@ -425,160 +425,21 @@ fn run_in_pool(
         return Err(McError("ndig must be between 1 and 6".into()));
     }
     let p = gum.results.first().map_or(0.95, |r| r.coverage_probability);
-    let names: Vec<&str> = model.inputs.iter().map(|i| i.name.as_str()).collect();
-    let formulas: Vec<_> = expanded_formulas(model)
-        .into_iter()
-        .map(|(_, e)| e)
-        .collect();
-    let tape = Tape::compile(&formulas, &names).map_err(|e| McError(e.message))?;
-    let groups = groups(model).map_err(McError)?;
-    let scales: Vec<f64> = gum
-        .results
-        .iter()
-        .zip(&model.measurands)
-        .map(|(r, meas)| {
-            let u = r.standard_uncertainty * meas.unit_factor();
-            if u > 0.0 && u.is_finite() {
-                power_of_two_near(u)
-            } else {
-                power_of_two_near(r.value * meas.unit_factor())
-            }
-        })
-        .collect();
-    let engine = Engine {
+    let engine = engine(model, gum, settings)?;
+    let run = Run {
         model,
-        tape,
-        groups,
-        seed: settings.seed,
-        scales,
+        engine: &engine,
+        settings,
+        threads,
+        p,
+        cap: limit(settings),
     };
-    let m = model.measurands.len();
-    let cap = limit(settings);
-    let check_memory = |n: usize| -> Result<u64, McError> {
-        let need = memory_needed(model, n, threads);
-        if need > cap {
-            return Err(McError(format!(
-                "{n} trials would need about {} of memory, more than the {} allowed; ask for fewer \
-                 trials (memory grows by {} bytes per trial for this model)",
-                human(need),
-                human(cap),
-                8 * (m + 2)
-            )));
-        }
-        Ok(need)
+    let (mut outs, block_moments, adaptive) = match settings.trials {
+        Trials::Fixed(n) => run.fixed(n)?,
+        Trials::Adaptive { max } => run.adaptive(max)?,
     };
-
-    let mut outs: Vec<Vec<f64>> = Vec::new();
-    let mut block_moments: Vec<Moments> = Vec::new();
-    let mut adaptive = None;
-    let total = match settings.trials {
-        Trials::Fixed(n) => {
-            if n < 2 {
-                return Err(McError("at least 2 trials are needed".into()));
-            }
-            let min = (100.0 / (1.0 - p)).ceil() as usize;
-            if n < min {
-                return Err(McError(format!(
-                    "{n} trials are too few for a {} % coverage interval; JCGM 101:2008, 7.2.2 asks \
-                     for at least 100/(1 − p) = {min}",
-                    100.0 * p
-                )));
-            }
-            check_memory(n)?;
-            outs = vec![vec![0.0; n]; m];
-            let (counts, bad, mo) = engine.run(0, &mut outs, 0..n);
-            handle_non_finite(model, &engine, &counts, bad, n, settings)?;
-            block_moments = mo;
-            n
-        }
-        Trials::Adaptive { max } => {
-            // JCGM 101:2008, 7.9.4: sequences of M = max(⌈100/(1 − p)⌉, 10⁴)
-            // trials, here rounded up to whole blocks.
-            let per = ((100.0 / (1.0 - p)).ceil() as usize)
-                .max(10_000)
-                .div_ceil(BLOCK)
-                * BLOCK;
-            let max_seq = (max / per).max(2);
-            check_memory(per * max_seq.min(2))?;
-            let mut seq_stats: Vec<Vec<[f64; 4]>> = vec![Vec::new(); m];
-            let mut h = 0;
-            let mut converged = false;
-            let batch = threads.max(2);
-            while h < max_seq && !converged {
-                let k = batch.min(max_seq - h);
-                let start = h * per;
-                let end = start + k * per;
-                check_memory(end)?;
-                for o in outs.iter_mut() {
-                    o.resize(end, 0.0);
-                }
-                if outs.is_empty() {
-                    outs = vec![vec![0.0; end]; m];
-                }
-                let (counts, bad, mo) = engine.run(start, &mut outs, start..end);
-                block_moments.extend(mo);
-                if !settings.drop_non_finite {
-                    handle_non_finite(model, &engine, &counts, bad, end - start, settings)?;
-                }
-                // Statistics of each new sequence, then the stopping rule
-                // after each one in order, as if they had been run one by one.
-                for s in 0..k {
-                    let lo = start + s * per;
-                    for (j, o) in outs.iter().enumerate() {
-                        let mut v: Vec<f64> = o[lo..lo + per]
-                            .iter()
-                            .copied()
-                            .filter(|x| x.is_finite())
-                            .collect();
-                        if v.len() < 2 {
-                            return Err(McError(format!(
-                                "a sequence of {per} trials gave fewer than two finite values of `{}`",
-                                model.measurands[j].name
-                            )));
-                        }
-                        let mean = stats::mean(&v);
-                        let sd = stats::std_dev(&v, mean);
-                        let iv = stats::summarize(&mut v, p, 1, None).symmetric;
-                        seq_stats[j].push([mean, sd, iv[0], iv[1]]);
-                    }
-                    h += 1;
-                    if h >= 2 && stable(&outs, &seq_stats, h * per, settings.ndig) {
-                        converged = true;
-                        break;
-                    }
-                }
-            }
-            let n = h * per;
-            for o in outs.iter_mut() {
-                o.truncate(n);
-                o.shrink_to_fit();
-            }
-            block_moments.truncate(n / BLOCK);
-            adaptive = Some(Adaptive {
-                ndig: settings.ndig,
-                trials_per_sequence: per,
-                sequences: h,
-                converged,
-            });
-            n
-        }
-    };
-
-    // A trial with a non-finite value of any measurand is dropped as a
-    // whole (only when that was asked; otherwise the run stopped above), so
-    // the measurands stay paired trial by trial.
-    let n_all = outs.first().map_or(0, Vec::len);
-    let mut dropped = 0;
-    if settings.drop_non_finite && outs.iter().any(|o| o.par_iter().any(|x| !x.is_finite())) {
-        let keep: Vec<bool> = (0..n_all)
-            .map(|i| outs.iter().all(|o| o[i].is_finite()))
-            .collect();
-        dropped = keep.iter().filter(|k| !**k).count();
-        for o in outs.iter_mut() {
-            let mut it = keep.iter();
-            o.retain(|_| *it.next().expect("one flag per trial"));
-        }
-    }
+    let total = outs.first().map_or(0, Vec::len);
+    let dropped = drop_non_finite_trials(&mut outs, settings.drop_non_finite);
     if outs.first().map_or(0, Vec::len) < 2 {
         return Err(McError(
             "fewer than two trials gave finite values of every measurand".into(),
@@ -588,34 +449,7 @@ fn run_in_pool(
     let total_moments = block_moments
         .iter()
         .fold(Moments::empty(&engine.scales), |acc, b| acc.combine(b));
-    let dof = (total_moments.n - 1.0).max(1.0);
-    let means = total_moments.mean.clone();
-    let sc = &engine.scales;
-    let sds: Vec<f64> = (0..m)
-        .map(|a| sc[a] * (total_moments.co[a][a] / dof).sqrt())
-        .collect();
-    if let Some(j) = (0..m).find(|&j| !(means[j].is_finite() && sds[j].is_finite())) {
-        return Err(McError(format!(
-            "the mean or the standard deviation of the trials of `{}` is not a finite number \
-             (values near the limits of double precision, about 1.8e308); express the model in \
-             units that keep its values well inside that range",
-            model.measurands[j].name
-        )));
-    }
-    let mut cov = vec![vec![0.0; m]; m];
-    let mut corr = vec![vec![0.0; m]; m];
-    for a in 0..m {
-        for b in 0..m {
-            cov[a][b] = total_moments.co[a][b] / dof * sc[a] * sc[b];
-            corr[a][b] = if a == b {
-                1.0
-            } else if sds[a] > 0.0 && sds[b] > 0.0 {
-                (cov[a][b] / (sds[a] * sds[b])).clamp(-1.0, 1.0)
-            } else {
-                0.0
-            };
-        }
-    }
+    let (means, sds, mut cov, corr) = output_moments(model, &total_moments, &engine.scales)?;
     // By input name, as the budget lines name their inputs.
     let t_factors: std::collections::HashMap<&str, f64> = engine
         .groups
@@ -623,75 +457,13 @@ fn run_in_pool(
         .flat_map(sample::Group::t_variance_factors)
         .map(|(i, f)| (model.inputs[i].name.as_str(), f))
         .collect();
-    let mut results = Vec::with_capacity(m);
+    let mut results = Vec::with_capacity(outs.len());
     for (j, o) in outs.iter_mut().enumerate() {
-        // Conformance by counting, in the measurand's unit (limits included).
-        let conformance = model.measurands[j].specification.as_ref().map(|spec| {
-            let meas = &model.measurands[j];
-            let lo = spec.lower.unwrap_or(f64::NEG_INFINITY);
-            let hi = spec.upper.unwrap_or(f64::INFINITY);
-            let inside = o
-                .iter()
-                .filter(|&&v| {
-                    let x = meas.shown_value(v);
-                    x >= lo && x <= hi
-                })
-                .count();
-            incertus_gum::conformity::McConformance::from_count(inside, o.len())
-        });
-        let mut summary =
-            stats::summarize(o, p, 60, Some((total_moments.min[j], total_moments.max[j])));
-        // From coherent SI to the measurand's unit, as the first-order report.
-        let meas = &model.measurands[j];
-        let val = |v: f64| meas.shown_value(v);
-        let f = meas.unit_factor();
-        let sym = summary.symmetric.map(val);
-        let short = summary.shortest.map(val);
-        for e in summary.histogram.edges.iter_mut() {
-            *e = val(*e);
-        }
-        let (mean_j, sd_j) = (val(means[j]), sds[j] / f);
-        let g = &gum.results[j];
-        let t_sampling_variance_ratio = {
-            let share: f64 = g.budget.iter().map(|b| b.share).sum();
-            let ratio: f64 = g
-                .budget
-                .iter()
-                .map(|b| b.share * t_factors.get(b.input.as_str()).copied().unwrap_or(1.0))
-                .sum();
-            // Stated from 1 % in variance (0.5 % in u) on.
-            (share > 0.0 && ratio / share > 1.01).then(|| ratio / share)
-        };
-        let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
-        let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
-        let d_high = (g.value + g.expanded_uncertainty - sym[1]).abs();
-        results.push(McMeasurand {
-            name: model.measurands[j].name.clone(),
-            trials: o.len(),
-            seed: settings.seed,
-            value: mean_j,
-            standard_uncertainty: sd_j,
-            coverage_probability: p,
-            symmetric_interval: sym,
-            shortest_interval: short,
-            validation: Validation {
-                numerical_tolerance: delta,
-                ndig: settings.ndig,
-                d_low,
-                d_high,
-                // Never passed on a figure that is not a number.
-                passed: d_low <= delta
-                    && d_high <= delta
-                    && delta.is_finite()
-                    && d_low.is_finite()
-                    && d_high.is_finite(),
-            },
-            non_finite_dropped: dropped,
-            histogram: summary.histogram,
-            conformance,
-            t_sampling_variance_ratio,
-        });
+        let range = (total_moments.min[j], total_moments.max[j]);
+        let moments = (means[j], sds[j]);
+        results.push(run.measurand(j, o, gum, range, moments, &t_factors, dropped));
     }
+    let m = model.measurands.len();
     let factors: Vec<f64> = model
         .measurands
         .iter()
@@ -721,6 +493,311 @@ fn run_in_pool(
             matrix: corr,
         },
     })
+}
+
+/// The compiled model with its samplers and the scales of its outputs.
+fn engine<'m>(model: &'m Model, gum: &Report, settings: &Settings) -> Result<Engine<'m>, McError> {
+    let names: Vec<&str> = model.inputs.iter().map(|i| i.name.as_str()).collect();
+    let formulas: Vec<_> = expanded_formulas(model)
+        .into_iter()
+        .map(|(_, e)| e)
+        .collect();
+    let tape = Tape::compile(&formulas, &names).map_err(|e| McError(e.message))?;
+    let groups = groups(model).map_err(McError)?;
+    let scales: Vec<f64> = gum
+        .results
+        .iter()
+        .zip(&model.measurands)
+        .map(|(r, meas)| {
+            let u = r.standard_uncertainty * meas.unit_factor();
+            if u > 0.0 && u.is_finite() {
+                power_of_two_near(u)
+            } else {
+                power_of_two_near(r.value * meas.unit_factor())
+            }
+        })
+        .collect();
+    Ok(Engine {
+        model,
+        tape,
+        groups,
+        seed: settings.seed,
+        scales,
+    })
+}
+
+/// The trial values of each measurand, the moments of each block, and the
+/// record of the adaptive procedure if it ran.
+type TrialValues = (Vec<Vec<f64>>, Vec<Moments>, Option<Adaptive>);
+
+/// One run: what its steps share.
+struct Run<'a> {
+    model: &'a Model,
+    engine: &'a Engine<'a>,
+    settings: &'a Settings,
+    threads: usize,
+    p: f64,
+    /// Largest memory allowed, in bytes.
+    cap: u64,
+}
+
+impl Run<'_> {
+    fn check_memory(&self, n: usize) -> Result<u64, McError> {
+        let need = memory_needed(self.model, n, self.threads);
+        if need > self.cap {
+            return Err(McError(format!(
+                "{n} trials would need about {} of memory, more than the {} allowed; ask for fewer \
+                 trials (memory grows by {} bytes per trial for this model)",
+                human(need),
+                human(self.cap),
+                8 * (self.model.measurands.len() + 2)
+            )));
+        }
+        Ok(need)
+    }
+
+    /// A fixed number of trials.
+    fn fixed(&self, n: usize) -> Result<TrialValues, McError> {
+        if n < 2 {
+            return Err(McError("at least 2 trials are needed".into()));
+        }
+        let min = (100.0 / (1.0 - self.p)).ceil() as usize;
+        if n < min {
+            return Err(McError(format!(
+                "{n} trials are too few for a {} % coverage interval; JCGM 101:2008, 7.2.2 asks \
+                 for at least 100/(1 − p) = {min}",
+                100.0 * self.p
+            )));
+        }
+        self.check_memory(n)?;
+        let mut outs = vec![vec![0.0; n]; self.model.measurands.len()];
+        let (counts, bad, mo) = self.engine.run(0, &mut outs, 0..n);
+        handle_non_finite(self.model, self.engine, &counts, bad, n, self.settings)?;
+        Ok((outs, mo, None))
+    }
+
+    /// The adaptive procedure of JCGM 101:2008, 7.9: sequences of
+    /// M = max(⌈100/(1 − p)⌉, 10⁴) trials (rounded up to whole blocks) until
+    /// the means, standard deviations and interval ends are stable.
+    fn adaptive(&self, max: usize) -> Result<TrialValues, McError> {
+        let (model, settings) = (self.model, self.settings);
+        let m = model.measurands.len();
+        let per = ((100.0 / (1.0 - self.p)).ceil() as usize)
+            .max(10_000)
+            .div_ceil(BLOCK)
+            * BLOCK;
+        let max_seq = (max / per).max(2);
+        self.check_memory(per * max_seq.min(2))?;
+        let mut outs: Vec<Vec<f64>> = Vec::new();
+        let mut block_moments: Vec<Moments> = Vec::new();
+        let mut seq_stats: Vec<Vec<[f64; 4]>> = vec![Vec::new(); m];
+        let mut h = 0;
+        let mut converged = false;
+        let batch = self.threads.max(2);
+        while h < max_seq && !converged {
+            let k = batch.min(max_seq - h);
+            let start = h * per;
+            let end = start + k * per;
+            self.check_memory(end)?;
+            for o in outs.iter_mut() {
+                o.resize(end, 0.0);
+            }
+            if outs.is_empty() {
+                outs = vec![vec![0.0; end]; m];
+            }
+            let (counts, bad, mo) = self.engine.run(start, &mut outs, start..end);
+            block_moments.extend(mo);
+            if !settings.drop_non_finite {
+                handle_non_finite(model, self.engine, &counts, bad, end - start, settings)?;
+            }
+            // Statistics of each new sequence, then the stopping rule after
+            // each one in order, as if they had been run one by one.
+            for s in 0..k {
+                self.sequence_statistics(&outs, start + s * per, per, &mut seq_stats)?;
+                h += 1;
+                if h >= 2 && stable(&outs, &seq_stats, h * per, settings.ndig) {
+                    converged = true;
+                    break;
+                }
+            }
+        }
+        let n = h * per;
+        for o in outs.iter_mut() {
+            o.truncate(n);
+            o.shrink_to_fit();
+        }
+        block_moments.truncate(n / BLOCK);
+        let adaptive = Adaptive {
+            ndig: settings.ndig,
+            trials_per_sequence: per,
+            sequences: h,
+            converged,
+        };
+        Ok((outs, block_moments, Some(adaptive)))
+    }
+
+    /// Mean, standard deviation and interval ends of one sequence.
+    fn sequence_statistics(
+        &self,
+        outs: &[Vec<f64>],
+        lo: usize,
+        per: usize,
+        seq_stats: &mut [Vec<[f64; 4]>],
+    ) -> Result<(), McError> {
+        for (j, o) in outs.iter().enumerate() {
+            let mut v: Vec<f64> = o[lo..lo + per]
+                .iter()
+                .copied()
+                .filter(|x| x.is_finite())
+                .collect();
+            if v.len() < 2 {
+                return Err(McError(format!(
+                    "a sequence of {per} trials gave fewer than two finite values of `{}`",
+                    self.model.measurands[j].name
+                )));
+            }
+            let mean = stats::mean(&v);
+            let sd = stats::std_dev(&v, mean);
+            let iv = stats::summarize(&mut v, self.p, 1, None).symmetric;
+            seq_stats[j].push([mean, sd, iv[0], iv[1]]);
+        }
+        Ok(())
+    }
+
+    /// The result of measurand `j` from its trial values `o`, in the
+    /// measurand's unit, validated against the first-order result.
+    #[allow(clippy::too_many_arguments)]
+    fn measurand(
+        &self,
+        j: usize,
+        o: &mut [f64],
+        gum: &Report,
+        range: (f64, f64),
+        (mean, sd): (f64, f64),
+        t_factors: &std::collections::HashMap<&str, f64>,
+        dropped: usize,
+    ) -> McMeasurand {
+        let (model, settings, p) = (self.model, self.settings, self.p);
+        let meas = &model.measurands[j];
+        // Conformance by counting, in the measurand's unit (limits included).
+        let conformance = meas.specification.as_ref().map(|spec| {
+            let lo = spec.lower.unwrap_or(f64::NEG_INFINITY);
+            let hi = spec.upper.unwrap_or(f64::INFINITY);
+            let inside = o
+                .iter()
+                .filter(|&&v| {
+                    let x = meas.shown_value(v);
+                    x >= lo && x <= hi
+                })
+                .count();
+            incertus_gum::conformity::McConformance::from_count(inside, o.len())
+        });
+        let mut summary = stats::summarize(o, p, 60, Some(range));
+        // From coherent SI to the measurand's unit, as the first-order report.
+        let val = |v: f64| meas.shown_value(v);
+        let sym = summary.symmetric.map(val);
+        let short = summary.shortest.map(val);
+        for e in summary.histogram.edges.iter_mut() {
+            *e = val(*e);
+        }
+        let g = &gum.results[j];
+        let t_sampling_variance_ratio = {
+            let share: f64 = g.budget.iter().map(|b| b.share).sum();
+            let ratio: f64 = g
+                .budget
+                .iter()
+                .map(|b| b.share * t_factors.get(b.input.as_str()).copied().unwrap_or(1.0))
+                .sum();
+            // Stated from 1 % in variance (0.5 % in u) on.
+            (share > 0.0 && ratio / share > 1.01).then(|| ratio / share)
+        };
+        let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
+        let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
+        let d_high = (g.value + g.expanded_uncertainty - sym[1]).abs();
+        McMeasurand {
+            name: meas.name.clone(),
+            trials: o.len(),
+            seed: settings.seed,
+            value: val(mean),
+            standard_uncertainty: sd / meas.unit_factor(),
+            coverage_probability: p,
+            symmetric_interval: sym,
+            shortest_interval: short,
+            validation: Validation {
+                numerical_tolerance: delta,
+                ndig: settings.ndig,
+                d_low,
+                d_high,
+                // Never passed on a figure that is not a number.
+                passed: d_low <= delta
+                    && d_high <= delta
+                    && delta.is_finite()
+                    && d_low.is_finite()
+                    && d_high.is_finite(),
+            },
+            non_finite_dropped: dropped,
+            histogram: summary.histogram,
+            conformance,
+            t_sampling_variance_ratio,
+        }
+    }
+}
+
+/// A trial with a non-finite value of any measurand is dropped as a whole
+/// (only when that was asked; otherwise the run stopped before), so the
+/// measurands stay paired trial by trial. The number dropped.
+fn drop_non_finite_trials(outs: &mut [Vec<f64>], asked: bool) -> usize {
+    if !asked || !outs.iter().any(|o| o.par_iter().any(|x| !x.is_finite())) {
+        return 0;
+    }
+    let n_all = outs.first().map_or(0, Vec::len);
+    let keep: Vec<bool> = (0..n_all)
+        .map(|i| outs.iter().all(|o| o[i].is_finite()))
+        .collect();
+    for o in outs.iter_mut() {
+        let mut it = keep.iter();
+        o.retain(|_| *it.next().expect("one flag per trial"));
+    }
+    keep.iter().filter(|k| !**k).count()
+}
+
+/// Means, standard deviations, covariance and correlation of the outputs
+/// (coherent SI) from the combined moments.
+#[allow(clippy::type_complexity)]
+fn output_moments(
+    model: &Model,
+    total: &Moments,
+    sc: &[f64],
+) -> Result<(Vec<f64>, Vec<f64>, Vec<Vec<f64>>, Vec<Vec<f64>>), McError> {
+    let m = sc.len();
+    let dof = (total.n - 1.0).max(1.0);
+    let means = total.mean.clone();
+    let sds: Vec<f64> = (0..m)
+        .map(|a| sc[a] * (total.co[a][a] / dof).sqrt())
+        .collect();
+    if let Some(j) = (0..m).find(|&j| !(means[j].is_finite() && sds[j].is_finite())) {
+        return Err(McError(format!(
+            "the mean or the standard deviation of the trials of `{}` is not a finite number \
+             (values near the limits of double precision, about 1.8e308); express the model in \
+             units that keep its values well inside that range",
+            model.measurands[j].name
+        )));
+    }
+    let mut cov = vec![vec![0.0; m]; m];
+    let mut corr = vec![vec![0.0; m]; m];
+    for a in 0..m {
+        for b in 0..m {
+            cov[a][b] = total.co[a][b] / dof * sc[a] * sc[b];
+            corr[a][b] = if a == b {
+                1.0
+            } else if sds[a] > 0.0 && sds[b] > 0.0 {
+                (cov[a][b] / (sds[a] * sds[b])).clamp(-1.0, 1.0)
+            } else {
+                0.0
+            };
+        }
+    }
+    Ok((means, sds, cov, corr))
 }
 
 /// Put a run's results into the first-order report: each measurand's

@@ -467,132 +467,138 @@ pub fn groups(model: &Model) -> Result<Vec<Group>, String> {
             });
             continue;
         }
-        let k = members.len();
-        let u: Vec<f64> = members
-            .iter()
-            .map(|&m| model.inputs[m].standard_uncertainty)
-            .collect();
-        let x: Vec<f64> = members.iter().map(|&m| model.inputs[m].estimate).collect();
-        let mut r = vec![vec![0.0; k]; k];
-        for a in 0..k {
-            for b in 0..k {
-                r[a][b] = model.correlation(members[a], members[b]);
-            }
+        out.push(correlated_group(model, members)?);
+    }
+    Ok(out)
+}
+
+/// The sampler of a group of correlated inputs: jointly normal, a
+/// multivariate t, or a Gaussian copula of the marginals.
+fn correlated_group(model: &Model, members: Vec<usize>) -> Result<Group, String> {
+    let k = members.len();
+    let u: Vec<f64> = members
+        .iter()
+        .map(|&m| model.inputs[m].standard_uncertainty)
+        .collect();
+    let x: Vec<f64> = members.iter().map(|&m| model.inputs[m].estimate).collect();
+    let mut r = vec![vec![0.0; k]; k];
+    for a in 0..k {
+        for b in 0..k {
+            r[a][b] = model.correlation(members[a], members[b]);
         }
-        let group_names: Vec<&str> = members
-            .iter()
-            .map(|&j| model.inputs[j].name.as_str())
-            .collect();
-        let member_ix = members.clone();
-        let chol = |m: &[Vec<f64>]| {
-            cholesky_semidefinite(m).map_err(|row| {
-                format!(
-                    "the correlation matrix of {} is not positive semi-definite (at `{}`), so the \
-                     inputs cannot be sampled jointly",
-                    group_names.join(", "),
-                    model.inputs[member_ix[row]].name
-                )
-            })
-        };
-        let dists: Vec<&Distribution> = members
-            .iter()
-            .map(|&m| &model.inputs[m].distribution)
-            .collect();
-        let all_normal = dists.iter().all(|d| matches!(d, Distribution::Normal));
-        let observed = model
+    }
+    let group_names: Vec<&str> = members
+        .iter()
+        .map(|&j| model.inputs[j].name.as_str())
+        .collect();
+    let member_ix = members.clone();
+    let chol = |m: &[Vec<f64>]| {
+        cholesky_semidefinite(m).map_err(|row| {
+            format!(
+                "the correlation matrix of {} is not positive semi-definite (at `{}`), so the \
+                 inputs cannot be sampled jointly",
+                group_names.join(", "),
+                model.inputs[member_ix[row]].name
+            )
+        })
+    };
+    let dists: Vec<&Distribution> = members
+        .iter()
+        .map(|&m| &model.inputs[m].distribution)
+        .collect();
+    let all_normal = dists.iter().all(|d| matches!(d, Distribution::Normal));
+    let observed = model
+        .correlations
+        .iter()
+        .filter(|c| members.contains(&c.a))
+        .all(|c| c.from_observations);
+    let dofs: Vec<Option<f64>> = members.iter().map(|&m| model.inputs[m].dof).collect();
+    let same_t = dists.iter().all(|d| matches!(d, Distribution::StudentT))
+        && observed
+        && dofs.iter().all(|d| d.is_some() && *d == dofs[0]);
+    // Covariance of the group.
+    let cov: Vec<Vec<f64>> = (0..k)
+        .map(|a| (0..k).map(|b| r[a][b] * u[a] * u[b]).collect())
+        .collect();
+    if all_normal {
+        Ok(Group::Gaussian {
+            inputs: members,
+            x,
+            l: chol(&cov)?,
+        })
+    } else if same_t {
+        // Quantities observed together (no fit among the correlations):
+        // N quantities from n joint observations have, under the
+        // non-informative prior, a multivariate t posterior with
+        // ν = n − N and scale matrix C/(n(n − N)), C = Σ (x_k − x̄)(x_k − x̄)ᵀ
+        // = (n − 1)·S (JCGM 101:2008, 6.4.8.1; Gelman et al., Bayesian Data
+        // Analysis, 3.6; both recalled from memory, and checked by the
+        // variance (n − 1)/(n − N − 2)·S/n in crates/mc/tests/samplers.rs).
+        // The parameters of one fit keep their residual dof (the scale
+        // matrix is s²(XᵀX)⁻¹ already).
+        let together = model
             .correlations
             .iter()
             .filter(|c| members.contains(&c.a))
-            .all(|c| c.from_observations);
-        let dofs: Vec<Option<f64>> = members.iter().map(|&m| model.inputs[m].dof).collect();
-        let same_t = dists.iter().all(|d| matches!(d, Distribution::StudentT))
-            && observed
-            && dofs.iter().all(|d| d.is_some() && *d == dofs[0]);
-        // Covariance of the group.
-        let cov: Vec<Vec<f64>> = (0..k)
-            .map(|a| (0..k).map(|b| r[a][b] * u[a] * u[b]).collect())
-            .collect();
-        if all_normal {
-            out.push(Group::Gaussian {
-                inputs: members,
-                x,
-                l: chol(&cov)?,
-            });
-        } else if same_t {
-            // Quantities observed together (no fit among the correlations):
-            // N quantities from n joint observations have, under the
-            // non-informative prior, a multivariate t posterior with
-            // ν = n − N and scale matrix C/(n(n − N)), C = Σ (x_k − x̄)(x_k − x̄)ᵀ
-            // = (n − 1)·S (JCGM 101:2008, 6.4.8.1; Gelman et al., Bayesian Data
-            // Analysis, 3.6; both recalled from memory, and checked by the
-            // variance (n − 1)/(n − N − 2)·S/n in crates/mc/tests/samplers.rs).
-            // The parameters of one fit keep their residual dof (the scale
-            // matrix is s²(XᵀX)⁻¹ already).
-            let together = model
-                .correlations
-                .iter()
-                .filter(|c| members.contains(&c.a))
-                .all(|c| c.from_fit.is_none());
-            let n_obs = members
-                .iter()
-                .map(|&m| match model.inputs[m].evaluation {
-                    Evaluation::TypeA { n, pooled: false } => Some(n),
-                    _ => None,
-                })
-                .collect::<Option<Vec<usize>>>()
-                .filter(|ns| ns.iter().all(|&n| n == ns[0]))
-                .map(|ns| ns[0]);
-            let (nu, cov, scale_factor) = match (together, n_obs) {
-                (true, Some(n)) => {
-                    if n <= k {
-                        return Err(format!(
-                            "{} are observed together {n} times: propagation of distributions needs \
-                             more observations than quantities ({k}) to sample them jointly \
-                             (multivariate t with n − N = {} dof)",
-                            group_names.join(", "),
-                            n as i64 - k as i64
-                        ));
-                    }
-                    let f = (n as f64 - 1.0) / (n - k) as f64;
-                    let scaled: Vec<Vec<f64>> = cov
-                        .iter()
-                        .map(|row| row.iter().map(|v| v * f).collect())
-                        .collect();
-                    ((n - k) as f64, scaled, f)
+            .all(|c| c.from_fit.is_none());
+        let n_obs = members
+            .iter()
+            .map(|&m| match model.inputs[m].evaluation {
+                Evaluation::TypeA { n, pooled: false } => Some(n),
+                _ => None,
+            })
+            .collect::<Option<Vec<usize>>>()
+            .filter(|ns| ns.iter().all(|&n| n == ns[0]))
+            .map(|ns| ns[0]);
+        let (nu, cov, scale_factor) = match (together, n_obs) {
+            (true, Some(n)) => {
+                if n <= k {
+                    return Err(format!(
+                        "{} are observed together {n} times: propagation of distributions needs \
+                         more observations than quantities ({k}) to sample them jointly \
+                         (multivariate t with n − N = {} dof)",
+                        group_names.join(", "),
+                        n as i64 - k as i64
+                    ));
                 }
-                _ => (dofs[0].expect("checked"), cov, 1.0),
-            };
-            out.push(Group::MultiT {
-                inputs: members,
-                x,
-                l: chol(&cov)?,
-                nu,
-                chi: ChiSquared::new(nu).map_err(|e| e.to_string())?,
-                variance_factor: t_variance_factor(nu) * scale_factor,
-            });
-        } else {
-            let marginals: Vec<Marginal> = members
-                .iter()
-                .map(|&m| Marginal::of(model, m))
-                .collect::<Result<_, _>>()?;
-            if let Some(pos) = marginals
-                .iter()
-                .position(|m| matches!(m, Marginal::Gamma { .. }))
-            {
-                return Err(format!(
-                    "`{}` has a gamma distribution and is correlated; correlated gamma inputs are not \
-                     supported",
-                    model.inputs[members[pos]].name
-                ));
+                let f = (n as f64 - 1.0) / (n - k) as f64;
+                let scaled: Vec<Vec<f64>> = cov
+                    .iter()
+                    .map(|row| row.iter().map(|v| v * f).collect())
+                    .collect();
+                ((n - k) as f64, scaled, f)
             }
-            out.push(Group::Copula {
-                inputs: members,
-                l: chol(&r)?,
-                marginals,
-            });
+            _ => (dofs[0].expect("checked"), cov, 1.0),
+        };
+        Ok(Group::MultiT {
+            inputs: members,
+            x,
+            l: chol(&cov)?,
+            nu,
+            chi: ChiSquared::new(nu).map_err(|e| e.to_string())?,
+            variance_factor: t_variance_factor(nu) * scale_factor,
+        })
+    } else {
+        let marginals: Vec<Marginal> = members
+            .iter()
+            .map(|&m| Marginal::of(model, m))
+            .collect::<Result<_, _>>()?;
+        if let Some(pos) = marginals
+            .iter()
+            .position(|m| matches!(m, Marginal::Gamma { .. }))
+        {
+            return Err(format!(
+                "`{}` has a gamma distribution and is correlated; correlated gamma inputs are not \
+                 supported",
+                model.inputs[members[pos]].name
+            ));
         }
+        Ok(Group::Copula {
+            inputs: members,
+            l: chol(&r)?,
+            marginals,
+        })
     }
-    Ok(out)
 }
 
 impl Group {

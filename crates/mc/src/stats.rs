@@ -440,8 +440,26 @@ pub fn summarize(v: &mut [f64], p: f64, bins: usize, range: Option<(f64, f64)>) 
         }
     }
     let shortest = [value(best.1), value(best.1 + q)];
-    // Plot histogram: the fine bins regrouped between the 0.05 % and
-    // 99.95 % points (by bin centre).
+    Summary {
+        symmetric,
+        shortest,
+        histogram: fine_histogram(&count, &cum, (lo, hi), width, m, bins),
+        sorted_in_full: false,
+    }
+}
+
+/// The plot histogram from the fine bins: regrouped into `bins` between the
+/// 0.05 % and 99.95 % points (by bin centre), the rest counted below and
+/// above.
+fn fine_histogram(
+    count: &[u32],
+    cum: &[usize],
+    (lo, hi): (f64, f64),
+    width: f64,
+    m: usize,
+    bins: usize,
+) -> Histogram {
+    let bin_of_rank = |i: usize| -> usize { cum.partition_point(|&c| c <= i) - 1 };
     let centre = |k: usize| lo + (k as f64 + 0.5) * width;
     let qlo = centre(bin_of_rank(((m as f64 * 0.0005) as usize).min(m - 1)));
     let qhi = centre(bin_of_rank(((m as f64 * 0.9995) as usize).min(m - 1)));
@@ -462,16 +480,11 @@ pub fn summarize(v: &mut [f64], p: f64, bins: usize, range: Option<(f64, f64)>) 
             counts[(((x - qlo) / w) as usize).min(bins - 1)] += c as u64;
         }
     }
-    Summary {
-        symmetric,
-        shortest,
-        histogram: Histogram {
-            edges,
-            counts,
-            below,
-            above,
-        },
-        sorted_in_full: false,
+    Histogram {
+        edges,
+        counts,
+        below,
+        above,
     }
 }
 

@@ -66,72 +66,20 @@ fn is_name(s: &str) -> bool {
     incertus_gum::description::is_formula_name(s)
 }
 
-/// Parse `VALUE ± U [modifiers]`, `VALUE(DIGITS) [modifiers]` or a plain
-/// number into an input called `name`; `None` when the text is not a value
-/// (then it is a formula).
-fn parse_value(name: &str, rhs: &str) -> Option<Result<InputDescription, String>> {
-    let s = rhs.trim();
-    let num_end = s
-        .char_indices()
-        .find(|(i, c)| {
-            !(c.is_ascii_digit()
-                || *c == '.'
-                || *c == 'e'
-                || *c == 'E'
-                || ((*c == '-' || *c == '+') && (*i == 0 || s[..*i].ends_with(['e', 'E']))))
-        })
-        .map_or(s.len(), |(i, _)| i);
-    let value: f64 = s[..num_end].parse().ok()?;
-    let rest = s[num_end..].trim_start();
+/// What may follow a value: `(k=2)`, `[unit]`, `dof=8`, a distribution.
+struct Modifiers {
+    k: Option<f64>,
+    dist: Option<&'static str>,
+    unit: Option<String>,
+    dof: Option<f64>,
+}
+
+/// The modifiers after a value; `None` when the text goes on as a formula.
+fn modifiers(mut rest: &str) -> Option<Result<Modifiers, String>> {
+    let mut k: Option<f64> = None;
+    let mut dist: Option<&'static str> = None;
     let mut unit: Option<String> = None;
     let mut dof: Option<f64> = None;
-    let (u, mut rest): (Option<f64>, &str) = if let Some(r) =
-        rest.strip_prefix('±').or_else(|| rest.strip_prefix("+-"))
-    {
-        let r = r.trim_start();
-        let end = r
-            .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == 'e' || c == 'E' || c == '-'))
-            .unwrap_or(r.len());
-        match r[..end].parse::<f64>() {
-            Ok(v) => (Some(v), &r[end..]),
-            Err(_) => return Some(Err("expected a number after ±".into())),
-        }
-    } else if let Some(r) = rest.strip_prefix('(') {
-        // Concise notation: the digits in parentheses are the uncertainty
-        // in units of the last digit of the value.
-        let Some(close) = r.find(')') else {
-            return Some(Err(
-                "expected `)` after the digits of the uncertainty".into()
-            ));
-        };
-        let digits = &r[..close];
-        if digits.starts_with('k') {
-            return None;
-        }
-        let Ok(d) = digits.parse::<u64>() else {
-            return Some(Err(format!(
-                "`({digits})` is not concise notation: write digits, as in 1.234(5)"
-            )));
-        };
-        let mantissa = &s[..num_end];
-        let decimals = mantissa
-            .split(['e', 'E'])
-            .next()
-            .and_then(|m| m.split_once('.'))
-            .map_or(0, |(_, f)| f.len());
-        let exp: i32 = mantissa
-            .split_once(['e', 'E'])
-            .and_then(|(_, e)| e.parse().ok())
-            .unwrap_or(0);
-        (
-            Some(d as f64 * 10f64.powi(exp - decimals as i32)),
-            &r[close + 1..],
-        )
-    } else {
-        (None, rest)
-    };
-    let mut k: Option<f64> = None;
-    let mut dist: Option<&str> = None;
     loop {
         rest = rest.trim_start();
         if rest.is_empty() {
@@ -182,6 +130,75 @@ fn parse_value(name: &str, rhs: &str) -> Option<Result<InputDescription, String>
             )));
         }
     }
+    Some(Ok(Modifiers { k, dist, unit, dof }))
+}
+
+/// Parse `VALUE ± U [modifiers]`, `VALUE(DIGITS) [modifiers]` or a plain
+/// number into an input called `name`; `None` when the text is not a value
+/// (then it is a formula).
+fn parse_value(name: &str, rhs: &str) -> Option<Result<InputDescription, String>> {
+    let s = rhs.trim();
+    let num_end = s
+        .char_indices()
+        .find(|(i, c)| {
+            !(c.is_ascii_digit()
+                || *c == '.'
+                || *c == 'e'
+                || *c == 'E'
+                || ((*c == '-' || *c == '+') && (*i == 0 || s[..*i].ends_with(['e', 'E']))))
+        })
+        .map_or(s.len(), |(i, _)| i);
+    let value: f64 = s[..num_end].parse().ok()?;
+    let rest = s[num_end..].trim_start();
+    let (u, rest): (Option<f64>, &str) = if let Some(r) =
+        rest.strip_prefix('±').or_else(|| rest.strip_prefix("+-"))
+    {
+        let r = r.trim_start();
+        let end = r
+            .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == 'e' || c == 'E' || c == '-'))
+            .unwrap_or(r.len());
+        match r[..end].parse::<f64>() {
+            Ok(v) => (Some(v), &r[end..]),
+            Err(_) => return Some(Err("expected a number after ±".into())),
+        }
+    } else if let Some(r) = rest.strip_prefix('(') {
+        // Concise notation: the digits in parentheses are the uncertainty
+        // in units of the last digit of the value.
+        let Some(close) = r.find(')') else {
+            return Some(Err(
+                "expected `)` after the digits of the uncertainty".into()
+            ));
+        };
+        let digits = &r[..close];
+        if digits.starts_with('k') {
+            return None;
+        }
+        let Ok(d) = digits.parse::<u64>() else {
+            return Some(Err(format!(
+                "`({digits})` is not concise notation: write digits, as in 1.234(5)"
+            )));
+        };
+        let mantissa = &s[..num_end];
+        let decimals = mantissa
+            .split(['e', 'E'])
+            .next()
+            .and_then(|m| m.split_once('.'))
+            .map_or(0, |(_, f)| f.len());
+        let exp: i32 = mantissa
+            .split_once(['e', 'E'])
+            .and_then(|(_, e)| e.parse().ok())
+            .unwrap_or(0);
+        (
+            Some(d as f64 * 10f64.powi(exp - decimals as i32)),
+            &r[close + 1..],
+        )
+    } else {
+        (None, rest)
+    };
+    let Modifiers { k, dist, unit, dof } = match modifiers(rest)? {
+        Ok(m) => m,
+        Err(e) => return Some(Err(e)),
+    };
     let dof_given = dof.map(DofGiven::Dof);
     let evaluation = match (u, k, dist) {
         (None, None, None) => {
