@@ -375,3 +375,50 @@ proptest! {
         }
     }
 }
+
+/// Every model error carries its kind, from text and from the builder.
+#[test]
+fn model_errors_carry_their_kind() {
+    use incertus::gum::ModelErrorKind as K;
+    let text = |t: &str| load_str(t, "k.toml").unwrap_err().kind;
+    let y = "\n[[measurands]]\nname = \"y\"\nformula = \"x\"\n";
+    assert_eq!(text("[inputs.x\nvalue = 1"), K::Syntax);
+    assert_eq!(text(&format!("[inputs.x]\nvalu = 1.0{y}")), K::Key);
+    assert_eq!(text(&format!("[inputs.x]\nvalue = \"a\"{y}")), K::Key);
+    assert_eq!(
+        text(&format!(
+            "[inputs.x]\nvalue = 1.0\nstandard_uncertainty = -1.0{y}"
+        )),
+        K::Value
+    );
+    assert_eq!(
+        text(&format!("[inputs.x]\nvalue = 1.0\nunit = \"kgg\"{y}")),
+        K::Unit
+    );
+    assert_eq!(text(&format!("[inputs.x]\nconstant = \"c0\"{y}")), K::Name);
+    assert_eq!(
+        text("[inputs.x]\nvalue = 1.0\n[[measurands]]\nname = \"y\"\nformula = \"x +\"\n"),
+        K::Formula
+    );
+    assert_eq!(
+        text("[inputs.x]\nvalue = 1.0\n[[measurands]]\nname = \"y\"\nformula = \"z\"\n"),
+        K::Formula
+    );
+    let built = |b: ModelBuilder| b.build().unwrap_err().kind;
+    assert_eq!(
+        built(
+            ModelBuilder::new()
+                .input("a.b", |i| i.value(1.0))
+                .measurand("y", "2", None)
+        ),
+        K::Name
+    );
+    assert_eq!(
+        built(
+            ModelBuilder::new()
+                .input("x", |i| i.value(f64::NAN))
+                .measurand("y", "x", None)
+        ),
+        K::Value
+    );
+}

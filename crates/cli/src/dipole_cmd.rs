@@ -50,7 +50,7 @@ fn solve(
     force: bool,
     out: &mut dyn Write,
 ) -> Result<(), Failure> {
-    let checked = build(p).map_err(Failure::input)?;
+    let checked = build(p).map_err(|e| Failure::input(e.message))?;
     let mut rep = propagate(&checked.model, &Options::default())
         .map_err(|e| Failure::input(e.to_string()))?;
     let mc = if trials > 0 {
@@ -89,7 +89,7 @@ fn solve(
 }
 
 pub fn run_dipole(a: &DipoleArgs, out: &mut dyn Write) -> Result<(), Failure> {
-    let p = read_problem(&a.file).map_err(Failure::input)?;
+    let p = read_problem(&a.file).map_err(|e| Failure::input(e.message))?;
     solve(&p, a.format, a.mc, a.report.as_deref(), a.force, out)
 }
 

@@ -76,7 +76,7 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
         names.push(u);
     }
     let cols = read_columns_limited(&a.file, &names, crate::limits()?.max_data_rows)
-        .map_err(|e| Failure::input(e.0))?;
+        .map_err(|e| Failure::input(e.message))?;
     let uy = a.y_uncertainty.as_ref().map(|_| cols.columns[2].as_slice());
     let ux = a
         .x_uncertainty
@@ -94,7 +94,7 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
         scale_by_chi_squared: a.scale_by_chi_squared,
         diagnostics: true,
     })
-    .map_err(|e| Failure::input(format!("{}: {}", a.file.display(), e.0)))?;
+    .map_err(|e| Failure::input(format!("{}: {}", a.file.display(), e.message)))?;
     let text = match a.format {
         FitFormat::Text => crate::report::fit_text(
             &format!(

@@ -258,11 +258,44 @@ pub struct Checked {
     pub warnings: Vec<String>,
 }
 
+/// Why a problem cannot be read or evaluated.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{message}")]
+pub struct DipoleError {
+    /// What kind of problem.
+    pub kind: DipoleErrorKind,
+    /// What is wrong, for a person.
+    pub message: String,
+}
+
+/// The kinds of [`DipoleError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum DipoleErrorKind {
+    /// The problem file or its data file cannot be read or understood.
+    File,
+    /// The series or the quantities do not make a valid model.
+    Model,
+    /// The data show no orientation polarization: the method gives no
+    /// dipole moment.
+    Method,
+}
+
+impl DipoleError {
+    fn new(kind: DipoleErrorKind, message: impl Into<String>) -> Self {
+        DipoleError {
+            kind,
+            message: message.into(),
+        }
+    }
+}
+
 /// Build and check the model of a problem.
-pub fn build(p: &Problem) -> Result<Checked, String> {
+pub fn build(p: &Problem) -> Result<Checked, DipoleError> {
+    use DipoleErrorKind::{Method, Model};
     let n = p.w2.len();
     if p.eps12.len() != n || p.n12_squared.len() != n {
-        return Err("the series have different lengths".into());
+        return Err(DipoleError::new(Model, "the series have different lengths"));
     }
     let mut warnings = Vec::new();
     if let Some(w) =
@@ -277,29 +310,34 @@ pub fn build(p: &Problem) -> Result<Checked, String> {
             ));
         }
     }
-    let model = model_description(p).validate().map_err(|e| e.to_string())?;
+    let model = model_description(p)
+        .validate()
+        .map_err(|e| DipoleError::new(Model, e.to_string()))?;
+    let missing = |m: &str| DipoleError::new(Model, m);
     let slope = |name: &str| {
         model
             .input(name)
             .map(|i| (i.estimate, i.standard_uncertainty))
     };
-    let (ae, ue) = slope("a_eps").ok_or("the permittivity fit is missing")?;
+    let (ae, ue) = slope("a_eps").ok_or_else(|| missing("the permittivity fit is missing"))?;
     let (an, un) = match slope("a_n") {
         Some(x) => x,
         None => {
-            let (dn, udn) = slope("dn").ok_or("the refraction fit is missing")?;
+            let (dn, udn) = slope("dn").ok_or_else(|| missing("the refraction fit is missing"))?;
             let n1 = slope("n1")
-                .ok_or("the approximation 2·n1·dn/dw2 needs the solvent's refractive index")?
+                .ok_or_else(|| {
+                    missing("the approximation 2·n1·dn/dw2 needs the solvent's refractive index")
+                })?
                 .0;
             (2.0 * n1 * dn, 2.0 * n1 * udn)
         }
     };
     if ae - an <= 0.0 {
-        return Err(format!(
+        return Err(DipoleError::new(Method, format!(
             "a_eps − a_n = {:.4} − {:.4} ≤ 0 (u = {:.2e}, {:.2e}): the permittivity rises no faster than the squared \
              refractive index, so the data show no orientation polarization and no dipole moment can be derived",
             ae, an, ue, un
-        ));
+        )));
     }
     // The intercept of ε12 against w2 should be the solvent's permittivity.
     if let Some(f) = model.fits.iter().find(|f| f.name == "permittivity") {
@@ -394,11 +432,12 @@ struct Conditions {
 }
 
 /// Read a problem from its TOML file (the CSV path relative to it).
-pub fn read_problem(path: &Path) -> Result<Problem, String> {
+pub fn read_problem(path: &Path) -> Result<Problem, DipoleError> {
     let file = path.display().to_string();
-    let text =
-        std::fs::read_to_string(path).map_err(|e| format!("{file}: cannot read the file: {e}"))?;
-    let f: File = toml::from_str(&text).map_err(|e| format!("{file}: {e}"))?;
+    let bad = |m: String| DipoleError::new(DipoleErrorKind::File, m);
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| bad(format!("{file}: cannot read the file: {e}")))?;
+    let f: File = toml::from_str(&text).map_err(|e| bad(format!("{file}: {e}")))?;
     let (ncol, squared) = match (
         &f.series.refractive_index,
         &f.series.refractive_index_squared,
@@ -406,9 +445,9 @@ pub fn read_problem(path: &Path) -> Result<Problem, String> {
         (Some(c), None) => (c.clone(), false),
         (None, Some(c)) => (c.clone(), true),
         _ => {
-            return Err(format!(
+            return Err(bad(format!(
                 "{file}: [series] needs refractive_index or refractive_index_squared (one of them)"
-            ))
+            )))
         }
     };
     let data = path.parent().unwrap_or(Path::new("")).join(&f.series.data);
@@ -416,23 +455,25 @@ pub fn read_problem(path: &Path) -> Result<Problem, String> {
         &data,
         &[&f.series.weight_fraction, &f.series.permittivity, &ncol],
     )
-    .map_err(|e| e.0)?;
+    .map_err(|e| bad(e.message))?;
     let n12_squared = if squared {
         cols.columns[2].clone()
     } else {
         cols.columns[2].iter().map(|n| n * n).collect()
     };
     if !f.series.exclude.is_empty() && f.series.exclude_reason.is_none() {
-        return Err(format!("{file}: [series] exclude needs exclude_reason"));
+        return Err(bad(format!(
+            "{file}: [series] exclude needs exclude_reason"
+        )));
     }
     if f.series
         .exclude_reason
         .as_deref()
         .is_some_and(|r| r.trim().is_empty())
     {
-        return Err(format!(
+        return Err(bad(format!(
             "{file}: [series] exclude_reason is blank: write why the points are excluded"
-        ));
+        )));
     }
     Ok(Problem {
         title: f.title.unwrap_or_else(|| "Dipole moment".into()),

@@ -137,7 +137,8 @@ fn validity_checks() {
     let mut p = synthetic(1.69, 1, 1.0);
     p.eps12 = p.w2.iter().map(|w| 2.015 + 0.1 * w).collect();
     let err = build(&p).err().unwrap();
-    assert!(err.contains("no orientation polarization"), "{err}");
+    assert!(err.message.contains("no orientation polarization"), "{err}");
+    assert_eq!(err.kind, incertus_dipole::DipoleErrorKind::Method);
     // Beyond the dilute range, and a curved series.
     let mut p = synthetic(1.69, 2, 1.0);
     p.w2 = p.w2.iter().map(|w| w * 4.0).collect();

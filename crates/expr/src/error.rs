@@ -5,6 +5,7 @@ use crate::ast::Span;
 
 /// What went wrong, broadly.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
 pub enum ErrorKind {
     /// The text is not a formula (unexpected character, missing operand, ...).
     Syntax,

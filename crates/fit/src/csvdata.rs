@@ -5,8 +5,33 @@ use std::path::Path;
 
 /// A problem with a data file.
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
-#[error("{0}")]
-pub struct DataError(pub String);
+#[error("{message}")]
+pub struct DataError {
+    /// What kind of problem.
+    pub kind: DataErrorKind,
+    /// What is wrong and where (`file:line`), for a person.
+    pub message: String,
+}
+
+/// The kinds of [`DataError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum DataErrorKind {
+    /// The file cannot be read (missing, unreadable, not text).
+    Read,
+    /// A line or cell is not what a CSV table of numbers holds.
+    Format,
+    /// A column asked for is not in the header.
+    Column,
+    /// The file exceeds a size limit.
+    Limit,
+}
+
+impl DataError {
+    fn new(kind: DataErrorKind, message: String) -> Self {
+        DataError { kind, message }
+    }
+}
 
 /// The requested columns and the 1-based data row of each value.
 #[derive(Clone, Debug)]
@@ -34,15 +59,24 @@ pub fn read_columns_limited(
     max_rows: usize,
 ) -> Result<Columns, DataError> {
     let file = path.display().to_string();
-    let meta = std::fs::metadata(path)
-        .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
+    let meta = std::fs::metadata(path).map_err(|e| {
+        DataError::new(
+            DataErrorKind::Read,
+            format!("{file}: cannot read the data file: {e}"),
+        )
+    })?;
     if meta.len() > MAX_DATA_BYTES {
-        return Err(DataError(format!(
-            "{file}: the data file is larger than {MAX_DATA_BYTES} bytes"
-        )));
+        return Err(DataError::new(
+            DataErrorKind::Limit,
+            format!("{file}: the data file is larger than {MAX_DATA_BYTES} bytes"),
+        ));
     }
-    let f = std::fs::File::open(path)
-        .map_err(|e| DataError(format!("{file}: cannot read the data file: {e}")))?;
+    let f = std::fs::File::open(path).map_err(|e| {
+        DataError::new(
+            DataErrorKind::Read,
+            format!("{file}: cannot read the data file: {e}"),
+        )
+    })?;
     columns_from_reader(f, &file, names, max_rows)
 }
 
@@ -60,7 +94,12 @@ pub fn columns_from_reader(
         .from_reader(source);
     let headers = rdr
         .headers()
-        .map_err(|e| DataError(format!("{file}:1: cannot read the header line: {e}")))?
+        .map_err(|e| {
+            DataError::new(
+                DataErrorKind::Format,
+                format!("{file}:1: cannot read the header line: {e}"),
+            )
+        })?
         .clone();
     let mut idx = Vec::new();
     for n in names {
@@ -68,16 +107,19 @@ pub fn columns_from_reader(
             Some(i) => idx.push(i),
             None => {
                 let other = headers.iter().any(|h| h.contains([';', '\t']));
-                return Err(DataError(format!(
-                    "{file}:1: no column named `{n}`; the columns are: {}{}",
-                    headers.iter().collect::<Vec<_>>().join(", "),
-                    if other {
-                        " (the header seems to use `;` or a tab between fields; incertus reads \
+                return Err(DataError::new(
+                    DataErrorKind::Column,
+                    format!(
+                        "{file}:1: no column named `{n}`; the columns are: {}{}",
+                        headers.iter().collect::<Vec<_>>().join(", "),
+                        if other {
+                            " (the header seems to use `;` or a tab between fields; incertus reads \
                          fields separated by commas, with decimal points)"
-                    } else {
-                        ""
-                    }
-                )));
+                        } else {
+                            ""
+                        }
+                    ),
+                ));
             }
         }
     }
@@ -85,63 +127,81 @@ pub fn columns_from_reader(
     let mut rows = Vec::new();
     for (k, rec) in rdr.records().enumerate() {
         if k >= max_rows {
-            return Err(DataError(format!(
+            return Err(DataError::new(DataErrorKind::Limit, format!(
                 "{file}: more than {max_rows} data rows; the limit can be raised (INCERTUS_MAX_DATA_ROWS)"
             )));
         }
         let rec = rec.map_err(|e| {
             let line = e.position().map_or(0, |p| p.line());
-            DataError(format!("{file}:{line}: cannot read the line: {e}"))
+            DataError::new(
+                DataErrorKind::Format,
+                format!("{file}:{line}: cannot read the line: {e}"),
+            )
         })?;
         let line = rec.position().map_or(k as u64 + 2, |p| p.line());
         if rec.len() != headers.len() {
-            return Err(DataError(format!(
-                "{file}:{line}: the line has {} field{} but the header has {}; decimal commas \
+            return Err(DataError::new(
+                DataErrorKind::Format,
+                format!(
+                    "{file}:{line}: the line has {} field{} but the header has {}; decimal commas \
                  (`0,5` for 0.5) or a separator other than the comma are the likely cause: export \
                  the data with decimal points and commas between fields",
-                rec.len(),
-                if rec.len() == 1 { "" } else { "s" },
-                headers.len()
-            )));
+                    rec.len(),
+                    if rec.len() == 1 { "" } else { "s" },
+                    headers.len()
+                ),
+            ));
         }
         for (c, &i) in idx.iter().enumerate() {
             let cell = rec.get(i).ok_or_else(|| {
-                DataError(format!(
+                DataError::new(
+                    DataErrorKind::Format,
+                    format!(
                     "{file}:{line}: column `{}` is missing (the line is shorter than the header)",
                     names[c]
-                ))
+                ),
+                )
             })?;
             if cell.is_empty() {
-                return Err(DataError(format!(
-                    "{file}:{line}: column `{}` is empty",
-                    names[c]
-                )));
+                return Err(DataError::new(
+                    DataErrorKind::Format,
+                    format!("{file}:{line}: column `{}` is empty", names[c]),
+                ));
             }
             let v: f64 = cell.parse().map_err(|_| {
                 let comma =
                     cell.matches(',').count() == 1 && cell.replace(',', ".").parse::<f64>().is_ok();
-                DataError(format!(
-                    "{file}:{line}: column `{}` holds `{cell}`, which is not a number{}",
-                    names[c],
-                    if comma {
-                        "; it looks like a decimal comma: export the data with decimal points"
-                    } else {
-                        ""
-                    }
-                ))
+                DataError::new(
+                    DataErrorKind::Format,
+                    format!(
+                        "{file}:{line}: column `{}` holds `{cell}`, which is not a number{}",
+                        names[c],
+                        if comma {
+                            "; it looks like a decimal comma: export the data with decimal points"
+                        } else {
+                            ""
+                        }
+                    ),
+                )
             })?;
             if !v.is_finite() {
-                return Err(DataError(format!(
-                    "{file}:{line}: column `{}` holds `{cell}`, which is not finite",
-                    names[c]
-                )));
+                return Err(DataError::new(
+                    DataErrorKind::Format,
+                    format!(
+                        "{file}:{line}: column `{}` holds `{cell}`, which is not finite",
+                        names[c]
+                    ),
+                ));
             }
             columns[c].push(v);
         }
         rows.push(k + 1);
     }
     if rows.is_empty() {
-        return Err(DataError(format!("{file}: the data file has no data rows")));
+        return Err(DataError::new(
+            DataErrorKind::Format,
+            format!("{file}: the data file has no data rows"),
+        ));
     }
     Ok(Columns { columns, rows })
 }

@@ -20,8 +20,8 @@ mod linear;
 mod york;
 
 pub use csvdata::{
-    columns_from_reader, read_columns, read_columns_limited, Columns, DataError, MAX_DATA_BYTES,
-    MAX_DATA_ROWS,
+    columns_from_reader, read_columns, read_columns_limited, Columns, DataError, DataErrorKind,
+    MAX_DATA_BYTES, MAX_DATA_ROWS,
 };
 pub use linear::{fit_basis, fit_polynomial};
 pub use york::fit_york;
@@ -154,10 +154,54 @@ impl FitResult {
     }
 }
 
+/// Any error of this crate, for `?` in an embedder's code.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// A fit.
+    #[error(transparent)]
+    Fit(#[from] FitError),
+    /// A data file.
+    #[error(transparent)]
+    Data(#[from] DataError),
+}
+
 /// Why a fit cannot be made.
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
-#[error("{0}")]
-pub struct FitError(pub String);
+#[error("{message}")]
+pub struct FitError {
+    /// What kind of problem.
+    pub kind: FitErrorKind,
+    /// What is wrong, for a person.
+    pub message: String,
+}
+
+/// The kinds of [`FitError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum FitErrorKind {
+    /// The request does not describe a fit: lengths differ, too few points,
+    /// an exclusion names no row, an uncertainty is not positive.
+    Request,
+    /// The data determine no unique fit (a singular system, all x equal).
+    Singular,
+}
+
+impl FitError {
+    pub(crate) fn request(message: impl Into<String>) -> Self {
+        FitError {
+            kind: FitErrorKind::Request,
+            message: message.into(),
+        }
+    }
+
+    pub(crate) fn singular(message: impl Into<String>) -> Self {
+        FitError {
+            kind: FitErrorKind::Singular,
+            message: message.into(),
+        }
+    }
+}
 
 /// What to fit.
 #[derive(Clone, Debug)]
@@ -199,13 +243,13 @@ pub fn fit(req: &FitRequest) -> Result<FitResult, FitError> {
         || req.u_y.is_some_and(|u| u.len() != n)
         || req.u_x.is_some_and(|u| u.len() != n)
     {
-        return Err(FitError(
-            "the columns of the fit have different lengths".into(),
+        return Err(FitError::request(
+            "the columns of the fit have different lengths",
         ));
     }
     for &r in &req.exclude {
         if !req.rows.contains(&r) {
-            return Err(FitError(format!(
+            return Err(FitError::request(format!(
                 "exclude names row {r}, but the data has rows {} to {}",
                 req.rows.first().copied().unwrap_or(0),
                 req.rows.last().copied().unwrap_or(0)
@@ -224,11 +268,11 @@ pub fn fit(req: &FitRequest) -> Result<FitResult, FitError> {
         |x: &[f64], y: &[f64], uy: Option<Vec<f64>>, ux: Option<Vec<f64>>, rows: Vec<usize>| {
             if let Some(ux) = ux {
                 let uy = uy.ok_or_else(|| {
-                    FitError("York's method needs the uncertainties of y as well as of x".into())
+                    FitError::request("York's method needs the uncertainties of y as well as of x")
                 })?;
                 if req.degree != 1 {
-                    return Err(FitError(
-                        "York's method fits a straight line (degree 1)".into(),
+                    return Err(FitError::request(
+                        "York's method fits a straight line (degree 1)",
                     ));
                 }
                 fit_york(x, y, &ux, &uy, &rows, req.scale_by_chi_squared)
@@ -259,8 +303,8 @@ pub fn fit(req: &FitRequest) -> Result<FitResult, FitError> {
         .as_deref()
         .is_none_or(|r| r.trim().is_empty())
     {
-        return Err(FitError(
-            "an exclusion needs a reason that is not blank: the audit trail records it".into(),
+        return Err(FitError::request(
+            "an exclusion needs a reason that is not blank: the audit trail records it",
         ));
     }
     let rows: Vec<usize> = req

@@ -39,7 +39,7 @@ fn solve(
     }
     let scale: Vec<f64> = (0..p).map(|j| a.column(j).norm()).collect();
     if let Some(j) = scale.iter().position(|s| *s == 0.0 || !s.is_finite()) {
-        return Err(FitError(format!(
+        return Err(FitError::request(format!(
             "column {} of the design is zero or not finite",
             j + 1
         )));
@@ -52,7 +52,7 @@ fn solve(
     // A rank-deficient design has a (near) zero on R's diagonal.
     let rmax = (0..p).map(|j| r[(j, j)].abs()).fold(0.0, f64::max);
     if let Some(j) = (0..p).find(|&j| r[(j, j)].abs() <= 1e-13 * rmax) {
-        return Err(FitError(format!(
+        return Err(FitError::request(format!(
             "the design is rank deficient (column {} depends on the others); fewer distinct x values than parameters?",
             j + 1
         )));
@@ -62,10 +62,10 @@ fn solve(
     let qtb = b.rows(0, p).into_owned();
     let beta_s = r
         .solve_upper_triangular(&qtb)
-        .ok_or_else(|| FitError("the least-squares system is singular".into()))?;
+        .ok_or_else(|| FitError::singular("the least-squares system is singular"))?;
     let rinv = r
         .solve_upper_triangular(&DMatrix::identity(p, p))
-        .ok_or_else(|| FitError("the least-squares system is singular".into()))?;
+        .ok_or_else(|| FitError::singular("the least-squares system is singular"))?;
     let cs = &rinv * rinv.transpose();
     let beta = (0..p).map(|j| beta_s[j] / scale[j]).collect();
     let unscaled_cov = (0..p)
@@ -197,7 +197,7 @@ fn finish(
 
 fn check_size(n: usize, p: usize) -> Result<(), FitError> {
     if n < p + 1 {
-        return Err(FitError(format!(
+        return Err(FitError::request(format!(
             "{n} points are too few for {p} parameters: a fit needs at least parameters + 1 = {} points \
              (so that the residuals leave at least one degree of freedom)",
             p + 1
@@ -212,7 +212,7 @@ fn check_u(u_y: Option<&[f64]>) -> Result<(), FitError> {
             .iter()
             .position(|v| v.is_nan() || *v <= 0.0 || !v.is_finite())
         {
-            return Err(FitError(format!(
+            return Err(FitError::request(format!(
                 "the uncertainty of y at point {} is not a positive number",
                 i + 1
             )));

@@ -16,13 +16,13 @@ pub fn fit_york(
 ) -> Result<FitResult, FitError> {
     let n = x.len();
     if n < 3 {
-        return Err(FitError(format!(
+        return Err(FitError::request(format!(
             "{n} points are too few for a straight line: at least 3 are needed"
         )));
     }
     for (i, (&a, &b)) in u_x.iter().zip(u_y).enumerate() {
         if !(a > 0.0 && b > 0.0 && a.is_finite() && b.is_finite()) {
-            return Err(FitError(format!(
+            return Err(FitError::request(format!(
                 "the uncertainties of x and y at point {} must be positive",
                 i + 1
             )));
@@ -36,7 +36,7 @@ pub fn fit_york(
     let sxy: f64 = x.iter().zip(y).map(|(a, b)| (a - mx) * (b - my)).sum();
     let sxx: f64 = x.iter().map(|a| (a - mx).powi(2)).sum();
     if sxx == 0.0 {
-        return Err(FitError("all x values are equal".into()));
+        return Err(FitError::singular("all x values are equal"));
     }
     let mut b = sxy / sxx;
     let mut w = vec![0.0; n];
@@ -67,8 +67,8 @@ pub fn fit_york(
         }
     }
     if !converged {
-        return Err(FitError(
-            "York's iteration did not converge in 1000 rounds".into(),
+        return Err(FitError::request(
+            "York's iteration did not converge in 1000 rounds",
         ));
     }
     let a = ybar - b * xbar;

@@ -175,10 +175,9 @@ fn exclusions_are_recorded_and_both_results_kept() {
     let before = r.without_exclusions.as_ref().unwrap();
     assert_eq!(before.dof, 6);
     assert!(before.residual_standard_deviation > 10.0 * r.residual_standard_deviation);
-    assert!(fit(&req(vec![9]))
-        .unwrap_err()
-        .0
-        .contains("exclude names row 9"));
+    let e = fit(&req(vec![9])).unwrap_err();
+    assert!(e.message.contains("exclude names row 9"));
+    assert_eq!(e.kind, incertus_fit::FitErrorKind::Request);
 }
 
 #[test]

@@ -51,14 +51,35 @@ mod validate;
 
 pub use check::{check, CheckItem, CheckReport};
 
+/// Any error of this crate, for `?` in an embedder's code; each variant
+/// holds the error with its own kind (`ModelError::kind`, ...).
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// A model file or description.
+    #[error(transparent)]
+    Model(#[from] ModelError),
+    /// The law of propagation.
+    #[error(transparent)]
+    Propagation(#[from] PropagationError),
+    /// A tracked quantity asked of the wrong session.
+    #[error(transparent)]
+    Session(#[from] number::SessionError),
+    /// A conformity assessment.
+    #[error(transparent)]
+    Conformity(#[from] conformity::ConformityError),
+}
+
 /// The factor of a unit to coherent SI, if the unit text is valid.
 pub fn units_factor(unit: &str) -> Option<f64> {
     incertus_units::parse(unit).ok().map(|u| u.factor)
 }
 pub use limits::Limits;
-pub use load::{load_file, load_file_with, load_str, load_str_with, ModelError, MAX_FILE_BYTES};
+pub use load::{
+    load_file, load_file_with, load_str, load_str_with, ModelError, ModelErrorKind, MAX_FILE_BYTES,
+};
 pub use model::{Correlation, Distribution, DofRounding, Evaluation, Input, Measurand, Model};
 pub use propagate::{
-    propagate, BudgetLine, MeasurandResult, Method, Options, PropagationError, Report,
-    ReportedResult,
+    propagate, BudgetLine, MeasurandResult, Method, Options, PropagationError,
+    PropagationErrorKind, Report, ReportedResult,
 };

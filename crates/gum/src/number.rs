@@ -51,6 +51,7 @@ pub struct Uncertain {
 
 /// A number that does not belong to the session asked about it.
 #[derive(Clone, Debug, PartialEq, Eq, thiserror::Error)]
+#[non_exhaustive]
 pub enum SessionError {
     /// The number was made from the inputs of another session.
     #[error("this uncertain number was made from the inputs of another session; ask that session")]

@@ -42,7 +42,8 @@ fn checked_derivative(
 ) -> Result<Expr, PropagationError> {
     let size = incertus_expr::derivative_size(e, w);
     if size > max_nodes as f64 {
-        return Err(perr(
+        return Err(perr_of(
+            PropagationErrorKind::Limit,
             format!(
                 "the derivative of `{of}` with respect to `{w}` would have about {size:.3e} nodes; \
                  the limit is {max_nodes} (INCERTUS_MAX_DERIVATIVE_NODES). Writing a long product or \
@@ -58,13 +59,41 @@ fn checked_derivative(
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
 #[error("{message}{}", detail.as_ref().map(|d| format!("\n{d}")).unwrap_or_default())]
 pub struct PropagationError {
+    /// What kind of problem.
+    pub kind: PropagationErrorKind,
+    /// What is wrong, for a person.
     pub message: String,
+    /// More lines (a formula with a caret, a derivative).
     pub detail: Option<String>,
     /// The line of the model file where the measurand concerned is defined.
     pub line: Option<usize>,
 }
 
+/// The kinds of [`PropagationError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum PropagationErrorKind {
+    /// A formula or a derivative is not defined at the input estimates.
+    Domain,
+    /// A value or an uncertainty leaves the range of double precision.
+    Range,
+    /// A derivative would exceed the size limit.
+    Limit,
+    /// No coverage factor exists for the coverage probability asked.
+    Coverage,
+    /// The method does not apply to this model (higher-order terms with
+    /// correlated inputs, or a model too far from linear for them).
+    Method,
+    /// A specification cannot be assessed with this result.
+    Conformity,
+}
+
 impl PropagationError {
+    fn kind(mut self, kind: PropagationErrorKind) -> Self {
+        self.kind = kind;
+        self
+    }
+
     fn at(mut self, line: usize) -> Self {
         if self.line.is_none() && line > 0 {
             self.line = Some(line);
@@ -73,8 +102,17 @@ impl PropagationError {
     }
 }
 
+fn perr_of(
+    kind: PropagationErrorKind,
+    message: impl Into<String>,
+    detail: Option<String>,
+) -> PropagationError {
+    perr(message, detail).kind(kind)
+}
+
 fn perr(message: impl Into<String>, detail: Option<String>) -> PropagationError {
     PropagationError {
+        kind: PropagationErrorKind::Domain,
         message: message.into(),
         detail,
         line: None,
@@ -398,7 +436,8 @@ fn tiny(v: f64) -> bool {
 }
 
 fn underflow(measurand: &str, what: &str, part: &str) -> PropagationError {
-    perr(
+    perr_of(
+            PropagationErrorKind::Range,
         format!(
             "`{measurand}`: the value of {what} at the input estimates underflows: `{part}` lies below \
              the normal range of double precision (about 2.2e-308) and comes out as 0 or with lost \
@@ -414,7 +453,11 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
         .coverage_probability
         .unwrap_or(model.coverage_probability);
     if let Err(m) = crate::coverage::check_coverage_probability(p) {
-        return Err(perr(format!("the coverage probability {m}"), None));
+        return Err(perr_of(
+            PropagationErrorKind::Coverage,
+            format!("the coverage probability {m}"),
+            None,
+        ));
     }
     let cx = Context {
         model,
@@ -769,7 +812,8 @@ impl<'a> Context<'a> {
         let p = self.p;
         let k = coverage_factor(p, nu_used);
         if !k.is_finite() {
-            return Err(perr(
+            return Err(perr_of(
+            PropagationErrorKind::Coverage,
                 format!(
                     "`{}`: no finite coverage factor exists for p = {p} with {} degrees of freedom; \
                      choose a smaller coverage probability",
@@ -884,7 +928,8 @@ impl<'a> Context<'a> {
 /// A result and its uncertainty must be finite and normal numbers.
 fn check_range(m: &Measurand, y: f64, uc: f64) -> Result<(), PropagationError> {
     if !uc.is_finite() {
-        return Err(perr(
+        return Err(perr_of(
+            PropagationErrorKind::Range,
             format!(
                 "the combined standard uncertainty of `{}` is not a finite number: a contribution \
                  c·u(x) exceeds the range of double precision (about 1.8e308); express the model in \
@@ -897,7 +942,8 @@ fn check_range(m: &Measurand, y: f64, uc: f64) -> Result<(), PropagationError> {
     }
     let subnormal = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
     if subnormal(y) || subnormal(uc) {
-        return Err(perr(
+        return Err(perr_of(
+            PropagationErrorKind::Range,
             format!(
                 "the result of `{}` or its uncertainty lies below the normal range of double \
                  precision (about 2.2e-308), where digits are lost to underflow; express the model \
@@ -932,7 +978,13 @@ fn assess_conformity(
         p,
         unit,
     )
-    .map_err(|e| perr(format!("measurand `{}`: {e}", r.name), None))?;
+    .map_err(|e| {
+        perr_of(
+            PropagationErrorKind::Conformity,
+            format!("measurand `{}`: {e}", r.name),
+            None,
+        )
+    })?;
     if !r.warnings.is_empty() {
         c.statement = format!(
             "NOT VALID WITHOUT REVIEW: the first-order result of `{}` this decision rests on \
@@ -1023,7 +1075,8 @@ fn second_order(
         .iter()
         .find(|c| c.coefficient != 0.0 && used.contains(&c.a) && used.contains(&c.b))
     {
-        return Err(perr(
+        return Err(perr_of(
+            PropagationErrorKind::Method,
             format!(
                 "`{name}`: the higher-order terms of JCGM 100:2008, 5.1.2 hold for independent inputs \
                  only, and `{}` and `{}` are correlated; use propagation of distributions instead",
@@ -1084,7 +1137,8 @@ fn second_order(
         return Ok(0.0);
     }
     if !scale.is_finite() {
-        return Err(perr(
+        return Err(perr_of(
+            PropagationErrorKind::Range,
             format!("`{name}`: the higher-order terms are not finite at the input estimates"),
             None,
         ));
@@ -1095,7 +1149,8 @@ fn second_order(
         total += 0.5 * a * a + b * c;
     }
     if total < 0.0 {
-        return Err(perr(
+        return Err(perr_of(
+            PropagationErrorKind::Method,
             format!("`{name}`: the higher-order terms make the variance negative; the model is too far from linear for this approximation"),
             None,
         ));

@@ -79,8 +79,40 @@ impl Default for Settings {
 
 /// Why a run could not be done.
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
-#[error("{0}")]
-pub struct McError(pub String);
+#[error("{message}")]
+pub struct McError {
+    /// What kind of problem.
+    pub kind: McErrorKind,
+    /// What is wrong, for a person.
+    pub message: String,
+}
+
+/// The kinds of [`McError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum McErrorKind {
+    /// The settings cannot give a valid run (too few trials, ndig).
+    Settings,
+    /// The trials would take more memory than allowed.
+    Memory,
+    /// The model cannot be sampled (a correlation structure not supported,
+    /// a correlation matrix not positive semi-definite, too few joint
+    /// observations).
+    Model,
+    /// Trials gave values that are not finite numbers.
+    NonFinite,
+    /// The worker threads could not be started.
+    Threads,
+}
+
+impl McError {
+    fn new(kind: McErrorKind, message: impl Into<String>) -> Self {
+        McError {
+            kind,
+            message: message.into(),
+        }
+    }
+}
 
 pub use incertus_gum::distributions::{McMeasurand, Validation};
 
@@ -411,7 +443,12 @@ pub fn run(model: &Model, gum: &Report, settings: &Settings) -> Result<McReport,
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
-        .map_err(|e| McError(format!("cannot start {threads} threads: {e}")))?;
+        .map_err(|e| {
+            McError::new(
+                McErrorKind::Threads,
+                format!("cannot start {threads} threads: {e}"),
+            )
+        })?;
     pool.install(|| run_in_pool(model, gum, settings, threads))
 }
 
@@ -422,7 +459,10 @@ fn run_in_pool(
     threads: usize,
 ) -> Result<McReport, McError> {
     if settings.ndig == 0 || settings.ndig > 6 {
-        return Err(McError("ndig must be between 1 and 6".into()));
+        return Err(McError::new(
+            McErrorKind::Settings,
+            "ndig must be between 1 and 6",
+        ));
     }
     let p = gum.results.first().map_or(0.95, |r| r.coverage_probability);
     let engine = engine(model, gum, settings)?;
@@ -441,8 +481,9 @@ fn run_in_pool(
     let total = outs.first().map_or(0, Vec::len);
     let dropped = drop_non_finite_trials(&mut outs, settings.drop_non_finite);
     if outs.first().map_or(0, Vec::len) < 2 {
-        return Err(McError(
-            "fewer than two trials gave finite values of every measurand".into(),
+        return Err(McError::new(
+            McErrorKind::NonFinite,
+            "fewer than two trials gave finite values of every measurand",
         ));
     }
     // Moments and covariance from the blocks, combined in order.
@@ -502,8 +543,9 @@ fn engine<'m>(model: &'m Model, gum: &Report, settings: &Settings) -> Result<Eng
         .into_iter()
         .map(|(_, e)| e)
         .collect();
-    let tape = Tape::compile(&formulas, &names).map_err(|e| McError(e.message))?;
-    let groups = groups(model).map_err(McError)?;
+    let tape = Tape::compile(&formulas, &names)
+        .map_err(|e| McError::new(McErrorKind::Model, e.message))?;
+    let groups = groups(model).map_err(|m| McError::new(McErrorKind::Model, m))?;
     let scales: Vec<f64> = gum
         .results
         .iter()
@@ -545,13 +587,16 @@ impl Run<'_> {
     fn check_memory(&self, n: usize) -> Result<u64, McError> {
         let need = memory_needed(self.model, n, self.threads);
         if need > self.cap {
-            return Err(McError(format!(
+            return Err(McError::new(
+                McErrorKind::Memory,
+                format!(
                 "{n} trials would need about {} of memory, more than the {} allowed; ask for fewer \
                  trials (memory grows by {} bytes per trial for this model)",
                 human(need),
                 human(self.cap),
                 8 * (self.model.measurands.len() + 2)
-            )));
+            ),
+            ));
         }
         Ok(need)
     }
@@ -559,15 +604,21 @@ impl Run<'_> {
     /// A fixed number of trials.
     fn fixed(&self, n: usize) -> Result<TrialValues, McError> {
         if n < 2 {
-            return Err(McError("at least 2 trials are needed".into()));
+            return Err(McError::new(
+                McErrorKind::Settings,
+                "at least 2 trials are needed",
+            ));
         }
         let min = (100.0 / (1.0 - self.p)).ceil() as usize;
         if n < min {
-            return Err(McError(format!(
+            return Err(McError::new(
+                McErrorKind::Settings,
+                format!(
                 "{n} trials are too few for a {} % coverage interval; JCGM 101:2008, 7.2.2 asks \
                  for at least 100/(1 − p) = {min}",
                 100.0 * self.p
-            )));
+            ),
+            ));
         }
         self.check_memory(n)?;
         let mut outs = vec![vec![0.0; n]; self.model.measurands.len()];
@@ -651,10 +702,13 @@ impl Run<'_> {
                 .filter(|x| x.is_finite())
                 .collect();
             if v.len() < 2 {
-                return Err(McError(format!(
-                    "a sequence of {per} trials gave fewer than two finite values of `{}`",
-                    self.model.measurands[j].name
-                )));
+                return Err(McError::new(
+                    McErrorKind::NonFinite,
+                    format!(
+                        "a sequence of {per} trials gave fewer than two finite values of `{}`",
+                        self.model.measurands[j].name
+                    ),
+                ));
             }
             let mean = stats::mean(&v);
             let sd = stats::std_dev(&v, mean);
@@ -776,12 +830,15 @@ fn output_moments(
         .map(|a| sc[a] * (total.co[a][a] / dof).sqrt())
         .collect();
     if let Some(j) = (0..m).find(|&j| !(means[j].is_finite() && sds[j].is_finite())) {
-        return Err(McError(format!(
-            "the mean or the standard deviation of the trials of `{}` is not a finite number \
+        return Err(McError::new(
+            McErrorKind::NonFinite,
+            format!(
+                "the mean or the standard deviation of the trials of `{}` is not a finite number \
              (values near the limits of double precision, about 1.8e308); express the model in \
              units that keep its values well inside that range",
-            model.measurands[j].name
-        )));
+                model.measurands[j].name
+            ),
+        ));
     }
     let mut cov = vec![vec![0.0; m]; m];
     let mut corr = vec![vec![0.0; m]; m];
@@ -902,7 +959,7 @@ fn handle_non_finite(
         .err()
         .map(|e| format!(" ({})", e.message))
         .unwrap_or_default();
-    Err(McError(format!(
+    Err(McError::new(McErrorKind::NonFinite, format!(
         "{} of {n} trials gave a value of `{}` that is not a finite number{why}; the first is trial {} \
          at {}. The model is not defined everywhere the input distributions reach: check the model \
          and the distributions, or rerun discarding such trials (`Settings::drop_non_finite`; the \

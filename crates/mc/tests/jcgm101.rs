@@ -213,13 +213,14 @@ fn non_finite_trials_are_an_error_or_dropped_and_counted() {
     .unwrap_err();
     // P(x ≤ 0) = Φ(-2) = 0.02275: about 2275 of 10^5 trials.
     assert!(
-        err.0
+        err.message
             .contains("of 100000 trials gave a value of `y` that is not a finite number"),
         "{}",
-        err.0
+        err.message
     );
-    assert!(err.0.contains("logarithm"), "{}", err.0);
-    assert!(err.0.contains("discarding such trials"));
+    assert!(err.message.contains("logarithm"), "{}", err.message);
+    assert!(err.message.contains("discarding such trials"));
+    assert_eq!(err.kind, incertus_mc::McErrorKind::NonFinite);
     let out = run(
         &m,
         &r,
@@ -248,7 +249,8 @@ fn memory_is_checked_before_anything_is_allocated() {
         },
     )
     .unwrap_err();
-    assert!(err.0.contains("would need about"), "{}", err.0);
+    assert!(err.message.contains("would need about"), "{}", err.message);
+    assert_eq!(err.kind, incertus_mc::McErrorKind::Memory);
     // 10^8 trials of a one-measurand model fit comfortably in 24 GiB.
     let need = incertus_mc::memory_needed(&m, 100_000_000, 2);
     assert!(need < 3_000_000_000, "{need}");
@@ -261,5 +263,5 @@ fn memory_is_checked_before_anything_is_allocated() {
         },
     )
     .unwrap_err();
-    assert!(err.0.contains("too few"), "{}", err.0);
+    assert!(err.message.contains("too few"), "{}", err.message);
 }

@@ -145,9 +145,26 @@ impl Unit {
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
 #[error("{message}")]
 pub struct UnitError {
+    /// What kind of problem.
+    pub kind: UnitErrorKind,
+    /// What is wrong, for a person.
     pub message: String,
+    /// Byte offsets of the part of the text concerned.
     pub start: usize,
     pub end: usize,
+}
+
+/// The kinds of [`UnitError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum UnitErrorKind {
+    /// The text is not a unit expression (a stray character, an unclosed
+    /// parenthesis, a power that is not an integer or a simple fraction).
+    Syntax,
+    /// A symbol that is not a known unit.
+    Unknown,
+    /// A power that leaves a fractional dimension, or nesting too deep.
+    Power,
 }
 
 impl UnitError {
@@ -331,7 +348,15 @@ struct UnitParser<'a> {
 
 impl UnitParser<'_> {
     fn err(&self, m: &str, start: usize, end: usize) -> UnitError {
+        let kind = if m.starts_with("unknown unit") {
+            UnitErrorKind::Unknown
+        } else if m.contains("fractional dimension") || m.contains("too deeply") {
+            UnitErrorKind::Power
+        } else {
+            UnitErrorKind::Syntax
+        };
         UnitError {
+            kind,
             message: m.to_string(),
             start,
             end,

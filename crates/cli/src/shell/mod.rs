@@ -762,7 +762,7 @@ fn inline_fit_data(mut d: ModelDescription, model: &Path) -> Result<ModelDescrip
         names.extend(y_uncertainty.as_deref());
         names.extend(x_uncertainty.as_deref());
         let cols = incertus_fit::read_columns(&dir.join(path), &names)
-            .map_err(|e| format!("fits.{}.data: {}", f.name, e.0))?;
+            .map_err(|e| format!("fits.{}.data: {}", f.name, e.message))?;
         if cols.rows.iter().enumerate().any(|(i, r)| *r != i + 1) {
             // Rows were skipped in the file: keep the file reference.
             continue;

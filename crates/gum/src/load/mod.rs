@@ -25,11 +25,14 @@ use crate::validate::{Origin, Place};
 /// Largest model file accepted, in bytes.
 pub const MAX_FILE_BYTES: u64 = 16 << 20;
 
-/// A problem with a model file.
+/// A problem with a model: a model file's text, or a description built in
+/// memory (then `file` is a label such as `<built model>` and `line` is 0).
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
 #[error("{}", self.render())]
 pub struct ModelError {
-    /// The file as given (or `<model>` for text).
+    /// What kind of problem.
+    pub kind: ModelErrorKind,
+    /// The file as given (or a label for a model built in memory).
     pub file: String,
     /// 1-based line and column; 0 when the problem is the file as a whole.
     pub line: usize,
@@ -41,7 +44,41 @@ pub struct ModelError {
     pub detail: Option<String>,
 }
 
+/// The kinds of [`ModelError`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum ModelErrorKind {
+    /// The file cannot be read, or is not UTF-8 text.
+    File,
+    /// The text is not valid TOML.
+    Syntax,
+    /// A key that is not known, a value of the wrong type, a key missing or
+    /// one that does not go with the others.
+    Key,
+    /// A value out of its range (a negative uncertainty, r outside [−1, 1],
+    /// reversed limits), or inputs that contradict one another.
+    Value,
+    /// A name: one the formulas cannot use, one defined twice, one that
+    /// names nothing (an input, fit, constant or measurand).
+    Name,
+    /// A formula that does not parse, names what is not defined, or whose
+    /// dimensions do not agree.
+    Formula,
+    /// A unit that cannot be read or does not fit its quantity.
+    Unit,
+    /// A fit's data file or data.
+    Data,
+    /// A size limit (inputs, measurands, formula size, file size).
+    Limit,
+}
+
 impl ModelError {
+    /// The same error with another kind.
+    pub(crate) fn with_kind(mut self, kind: ModelErrorKind) -> Self {
+        self.kind = kind;
+        self
+    }
+
     fn render(&self) -> String {
         let mut s = if self.line > 0 {
             format!("{}:{}:{}: ", self.file, self.line, self.column)
@@ -70,6 +107,7 @@ pub fn load_file(path: &Path) -> Result<Model, ModelError> {
 pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError> {
     let file = path.display().to_string();
     let whole = |message: String| ModelError {
+        kind: ModelErrorKind::File,
         file: file.clone(),
         line: 0,
         column: 0,
@@ -86,7 +124,8 @@ pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError>
             "the file is {} bytes; model files are limited to {} bytes (INCERTUS_MAX_FILE_BYTES)",
             meta.len(),
             limits.max_file_bytes
-        )));
+        ))
+        .with_kind(ModelErrorKind::Limit));
     }
     let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
     let text = String::from_utf8(bytes).map_err(|e| {
@@ -138,7 +177,7 @@ pub(crate) fn describe_str(
             format!("not valid TOML: {}", e.message().trim()),
         );
         err.detail = Some(doc.line_with_caret(span));
-        err
+        err.with_kind(ModelErrorKind::Syntax)
     })?;
     let root_span = root.span();
     let mut top = Reader::new(&doc, "", root.get_ref(), root_span);

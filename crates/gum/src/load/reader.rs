@@ -65,6 +65,7 @@ impl Doc<'_> {
     ) -> ModelError {
         let (line, column) = self.line_col(span.start);
         ModelError {
+            kind: ModelErrorKind::Key,
             file: self.file.to_string(),
             line,
             column,

@@ -54,7 +54,7 @@ impl Validator<'_, '_> {
                         m.name, depth, self.limits.max_formula_depth
                     )
                 };
-                return Err(self.err(&path, msg));
+                return Err(self.err(&path, msg).with_kind(ModelErrorKind::Limit));
             }
             known.insert(m.name.as_str(), (nodes, depth));
         }

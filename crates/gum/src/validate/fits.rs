@@ -80,7 +80,11 @@ impl Validator<'_, '_> {
             scale_by_chi_squared: f.scale_by_chi_squared,
             diagnostics: true,
         })
-        .map_err(|e| self.origin.key_error(path, e.0))?;
+        .map_err(|e| {
+            self.origin
+                .key_error(path, e.message)
+                .with_kind(ModelErrorKind::Data)
+        })?;
         Ok(NamedFit {
             name: f.name.clone(),
             data: columns.source,
@@ -107,7 +111,10 @@ impl Validator<'_, '_> {
                 let p = self.origin.dir.join(file);
                 let cols =
                     incertus_fit::read_columns_limited(&p, &names, self.limits.max_data_rows)
-                        .map_err(|e| self.err(&join(path, "data"), e.0))?;
+                        .map_err(|e| {
+                            self.err(&join(path, "data"), e.message)
+                                .with_kind(ModelErrorKind::Data)
+                        })?;
                 let mut it = cols.columns.into_iter();
                 let cx = it.next().expect("x column");
                 let cy = it.next().expect("y column");

@@ -9,24 +9,32 @@ use crate::typea;
 impl Validator<'_, '_> {
     pub(super) fn inputs(&self, ds: &[InputDescription], fits: &[NamedFit]) -> Result<Vec<Input>> {
         if ds.len() > self.limits.max_inputs {
-            return Err(self.origin.key_error(
-                "inputs",
-                format!(
-                    "{} inputs; the limit is {} (INCERTUS_MAX_INPUTS)",
-                    ds.len(),
-                    self.limits.max_inputs
-                ),
-            ));
+            return Err(self
+                .origin
+                .key_error(
+                    "inputs",
+                    format!(
+                        "{} inputs; the limit is {} (INCERTUS_MAX_INPUTS)",
+                        ds.len(),
+                        self.limits.max_inputs
+                    ),
+                )
+                .with_kind(ModelErrorKind::Limit));
         }
         let mut seen: HashMap<&str, ()> = HashMap::with_capacity(ds.len());
         let mut out = Vec::with_capacity(ds.len());
         for d in ds {
             let path = format!("inputs.{}", d.name);
             if let Some(m) = name_problem(&d.name) {
-                return Err(self.origin.key_error(&path, m));
+                return Err(self
+                    .origin
+                    .key_error(&path, m)
+                    .with_kind(ModelErrorKind::Name));
             }
             if seen.insert(d.name.as_str(), ()).is_some() {
-                return Err(self.err(&path, format!("`{}` is defined twice", d.name)));
+                return Err(self
+                    .err(&path, format!("`{}` is defined twice", d.name))
+                    .with_kind(ModelErrorKind::Name));
             }
             let input = self.input(d, &path, fits)?;
             out.push(self.to_si(input, &path)?);
@@ -309,7 +317,9 @@ impl Validator<'_, '_> {
             if let Some(close) = closest(name, names.iter().copied()) {
                 msg.push_str(&format!("; did you mean `{close}`?"));
             }
-            let mut e = self.err(&join(path, "constant"), msg);
+            let mut e = self
+                .err(&join(path, "constant"), msg)
+                .with_kind(ModelErrorKind::Name);
             e.detail = Some(format!("constants: {}", names.join(", ")));
             return Err(e);
         };
@@ -342,7 +352,9 @@ impl Validator<'_, '_> {
             if let Some(c) = closest(fname, fits.iter().map(|f| f.name.as_str())) {
                 msg.push_str(&format!("; did you mean `{c}`?"));
             }
-            return Err(self.err(&join(path, "fit"), msg));
+            return Err(self
+                .err(&join(path, "fit"), msg)
+                .with_kind(ModelErrorKind::Name));
         };
         let Some(k) = f.result.parameter(pname) else {
             let names: Vec<&str> = f
@@ -351,13 +363,15 @@ impl Validator<'_, '_> {
                 .iter()
                 .map(|p| p.name.as_str())
                 .collect();
-            return Err(self.err(
-                &join(path, "parameter"),
-                format!(
-                    "fit `{fname}` has no parameter `{pname}`; its parameters are {}",
-                    names.join(", ")
-                ),
-            ));
+            return Err(self
+                .err(
+                    &join(path, "parameter"),
+                    format!(
+                        "fit `{fname}` has no parameter `{pname}`; its parameters are {}",
+                        names.join(", ")
+                    ),
+                )
+                .with_kind(ModelErrorKind::Name));
         };
         let res = &f.result;
         let known_u = res.chi_squared.is_some() && !res.scaled_by_chi_squared;
@@ -394,7 +408,10 @@ impl Validator<'_, '_> {
     /// Parse a unit; an error points at the unit, with a caret under it.
     pub(super) fn unit(&self, path: &str, shown: &str, text: &str) -> Result<incertus_units::Unit> {
         incertus_units::parse(text).map_err(|e| {
-            let mut err = self.origin.error_shown(path, shown, e.message.clone());
+            let mut err = self
+                .origin
+                .error_shown(path, shown, e.message.clone())
+                .with_kind(ModelErrorKind::Unit);
             err.detail = Some(incertus_expr::caret(
                 text,
                 incertus_expr::Span::new(e.start, e.end),

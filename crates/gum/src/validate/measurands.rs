@@ -25,14 +25,16 @@ impl Validator<'_, '_> {
             return Err(self.err("measurands", msg));
         }
         if d.measurands.len() > self.limits.max_measurands {
-            return Err(self.err(
-                "measurands",
-                format!(
-                    "{} measurands; the limit is {} (INCERTUS_MAX_MEASURANDS)",
-                    d.measurands.len(),
-                    self.limits.max_measurands
-                ),
-            ));
+            return Err(self
+                .err(
+                    "measurands",
+                    format!(
+                        "{} measurands; the limit is {} (INCERTUS_MAX_MEASURANDS)",
+                        d.measurands.len(),
+                        self.limits.max_measurands
+                    ),
+                )
+                .with_kind(ModelErrorKind::Limit));
         }
         let mut names: HashMap<&str, ()> = inputs.iter().map(|i| (i.name.as_str(), ())).collect();
         let mut out: Vec<Measurand> = Vec::with_capacity(d.measurands.len());
@@ -40,10 +42,12 @@ impl Validator<'_, '_> {
             let path = format!("measurands[{m}]");
             let name_path = join(&path, "name");
             if let Some(msg) = name_problem(&md.name) {
-                return Err(self.err(&name_path, msg));
+                return Err(self.err(&name_path, msg).with_kind(ModelErrorKind::Name));
             }
             if names.insert(md.name.as_str(), ()).is_some() {
-                return Err(self.err(&name_path, format!("`{}` is defined twice", md.name)));
+                return Err(self
+                    .err(&name_path, format!("`{}` is defined twice", md.name))
+                    .with_kind(ModelErrorKind::Name));
             }
             out.push(self.measurand(md, &path)?);
         }

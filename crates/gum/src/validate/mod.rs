@@ -16,7 +16,7 @@ use incertus_expr::FormulaError;
 
 use crate::description::*;
 use crate::limits::Limits;
-use crate::load::ModelError;
+use crate::load::{ModelError, ModelErrorKind};
 use crate::model::*;
 
 mod checks;
@@ -107,6 +107,7 @@ impl Origin<'_> {
     fn error_at(&self, at: Option<usize>, path: &str, message: impl Into<String>) -> ModelError {
         let (line, column) = at.map_or((0, 0), |o| self.line_col(o));
         ModelError {
+            kind: ModelErrorKind::Value,
             file: self.file.clone(),
             line,
             column,
@@ -141,7 +142,9 @@ impl Origin<'_> {
                 at = Some(span.start + 1 + e.span.start);
             }
         }
-        let mut err = self.error_at(at, path, e.message.clone());
+        let mut err = self
+            .error_at(at, path, e.message.clone())
+            .with_kind(ModelErrorKind::Formula);
         err.detail = Some(incertus_expr::caret(text, e.span));
         err
     }
