@@ -44,6 +44,8 @@
 //! The older approximation a_n ≈ 2·n₁·dn₁₂/dw₂ (a line of n₁₂ rather than
 //! n₁₂² against w₂) is available only as an explicit option.
 
+#![warn(missing_docs)]
+
 use std::path::Path;
 
 use incertus_gum::description::{
@@ -56,30 +58,44 @@ use serde::Deserialize;
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Quantity {
+    /// The value.
     pub value: f64,
+    /// Its standard uncertainty.
     pub standard_uncertainty: f64,
+    /// Its unit (`None`: dimensionless).
     pub unit: Option<String>,
 }
 
 /// The series and the data of solvent, solute and conditions.
 #[derive(Clone, Debug)]
 pub struct Problem {
+    /// A title for reports.
     pub title: String,
     /// Solute weight fractions, permittivities and squared refractive
     /// indices of the solutions, with their 1-based data rows.
     pub w2: Vec<f64>,
+    /// Relative permittivities ε₁₂ of the solutions.
     pub eps12: Vec<f64>,
+    /// Squared refractive indices n₁₂² of the solutions.
     pub n12_squared: Vec<f64>,
+    /// The 1-based data row of each point.
     pub rows: Vec<usize>,
+    /// Relative permittivity ε₁ of the solvent.
     pub solvent_permittivity: Quantity,
+    /// Density ρ₁ of the solvent.
     pub solvent_density: Quantity,
+    /// Molar mass M₂ of the solute.
     pub molar_mass: Quantity,
+    /// Temperature T of the solutions.
     pub temperature: Quantity,
+    /// 1-based data rows left out of both fits.
     pub exclude: Vec<usize>,
+    /// Why they are left out.
     pub exclude_reason: Option<String>,
     /// For the Halverstadt-Kumler method: densities of the solutions (in the
     /// unit of the solvent density) and the solvent's refractive index.
     pub density12: Option<Vec<f64>>,
+    /// Refractive index n₁ of the solvent (Halverstadt-Kumler, or the approximation of a_n).
     pub solvent_refractive_index: Option<Quantity>,
     /// Take a_n = 2·n₁·dn₁₂/dw₂ from a line of n₁₂ (not n₁₂²) against w₂,
     /// an approximation offered only on request (needs the solvent's
@@ -254,7 +270,9 @@ pub fn model_text(p: &Problem) -> String {
 /// The model, checked: errors for what makes the method meaningless,
 /// warnings for what a reader should look at.
 pub struct Checked {
+    /// The validated model.
     pub model: incertus_gum::Model,
+    /// What a reader should look at (not errors).
     pub warnings: Vec<String>,
 }
 

@@ -15,11 +15,14 @@ use crate::func::Func;
 /// A half-open byte range `start..end` into the formula text.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 pub struct Span {
+    /// First byte.
     pub start: usize,
+    /// One past the last byte.
     pub end: usize,
 }
 
 impl Span {
+    /// The span from `start` to `end`.
     pub fn new(start: usize, end: usize) -> Self {
         Span { start, end }
     }
@@ -33,7 +36,9 @@ impl Span {
 /// One node of a formula with the span of its text.
 #[derive(Clone, Debug)]
 pub struct Expr {
+    /// What the node is.
     pub kind: Kind,
+    /// The text it came from.
     pub span: Span,
 }
 
@@ -61,26 +66,33 @@ pub enum Kind {
 /// A term of a sum; `negative` means it is subtracted.
 #[derive(Clone, Debug)]
 pub struct Term {
+    /// Whether the term is subtracted.
     pub negative: bool,
+    /// The term.
     pub expr: Expr,
 }
 
 /// A factor of a product; `divide` means the running product is divided by it.
 #[derive(Clone, Debug)]
 pub struct Factor {
+    /// Whether the factor divides.
     pub divide: bool,
+    /// The factor.
     pub expr: Expr,
 }
 
 impl Expr {
+    /// A node of `kind` from the text at `span`.
     pub fn new(kind: Kind, span: Span) -> Self {
         Expr { kind, span }
     }
 
+    /// A number.
     pub fn num(v: f64, span: Span) -> Self {
         Expr::new(Kind::Num(v), span)
     }
 
+    /// A name.
     pub fn var(name: impl Into<String>, span: Span) -> Self {
         Expr::new(Kind::Var(name.into()), span)
     }

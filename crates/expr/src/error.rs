@@ -21,12 +21,16 @@ pub enum ErrorKind {
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
 #[error("{message}")]
 pub struct FormulaError {
+    /// What went wrong, broadly.
     pub kind: ErrorKind,
+    /// What went wrong, for a person.
     pub message: String,
+    /// The part of the formula concerned.
     pub span: Span,
 }
 
 impl FormulaError {
+    /// An error of `kind` at `span`.
     pub fn new(kind: ErrorKind, message: impl Into<String>, span: Span) -> Self {
         FormulaError {
             kind,

@@ -16,6 +16,7 @@ use crate::func::{literal_integer, power, power_int, Func};
 
 /// Something that gives the value of a name.
 pub trait Env<T> {
+    /// The value of `name`, if known.
     fn value(&self, name: &str) -> Option<T>;
 }
 

@@ -9,28 +9,51 @@ use num_traits::Float;
 /// A built-in function.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum Func {
+    /// √x.
     Sqrt,
+    /// ∛x.
     Cbrt,
+    /// Eˣ.
     Exp,
+    /// Natural logarithm.
     Ln,
+    /// Base-10 logarithm.
     Log10,
+    /// Base-2 logarithm.
     Log2,
+    /// Sine (radians).
     Sin,
+    /// Cosine (radians).
     Cos,
+    /// Tangent (radians).
     Tan,
+    /// Arc sine.
     Asin,
+    /// Arc cosine.
     Acos,
+    /// Arc tangent.
     Atan,
+    /// Atan2(y, x), the angle of the point (x, y).
     Atan2,
+    /// Hyperbolic sine.
     Sinh,
+    /// Hyperbolic cosine.
     Cosh,
+    /// Hyperbolic tangent.
     Tanh,
+    /// Inverse hyperbolic sine.
     Asinh,
+    /// Inverse hyperbolic cosine.
     Acosh,
+    /// Inverse hyperbolic tangent.
     Atanh,
+    /// Absolute value.
     Abs,
+    /// Sign: −1, 0 or 1.
     Sign,
+    /// Hypot(a, b) = √(a² + b²).
     Hypot,
+    /// Pow(x, p) = xᵖ.
     Pow,
 }
 
@@ -62,6 +85,7 @@ pub const ALL: [Func; 23] = [
 ];
 
 impl Func {
+    /// The name in formulas.
     pub fn name(self) -> &'static str {
         match self {
             Func::Sqrt => "sqrt",
@@ -90,6 +114,7 @@ impl Func {
         }
     }
 
+    /// The function called `name`, if any.
     pub fn from_name(name: &str) -> Option<Func> {
         ALL.iter().copied().find(|f| f.name() == name)
     }

@@ -17,6 +17,8 @@
 //! assert_eq!(print(&derivative(&f, "r")), "-2*V/(pi*r^3*h)");
 //! ```
 
+#![warn(missing_docs)]
+
 mod ast;
 mod derive;
 mod error;

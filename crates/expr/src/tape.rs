@@ -86,15 +86,32 @@ impl BatchReport {
 
 /// A mismatch between a tape and the slices given to it.
 #[derive(Clone, Debug, PartialEq, Eq, thiserror::Error)]
+#[non_exhaustive]
 pub enum ShapeError {
+    /// The number of input columns differs from the tape's inputs.
     #[error("the tape has {expected} inputs but {found} columns were given")]
-    Inputs { expected: usize, found: usize },
+    Inputs {
+        /// The tape's inputs.
+        expected: usize,
+        /// The columns given.
+        found: usize,
+    },
+    /// The number of output columns differs from the tape's outputs.
     #[error("the tape has {expected} outputs but {found} output columns were given")]
-    Outputs { expected: usize, found: usize },
+    Outputs {
+        /// The tape's outputs.
+        expected: usize,
+        /// The columns given.
+        found: usize,
+    },
+    /// A column is not as long as the others.
     #[error("column {index} has {found} points where {expected} were expected")]
     Length {
+        /// The column.
         index: usize,
+        /// The length of the first column.
         expected: usize,
+        /// Its length.
         found: usize,
     },
 }

@@ -36,7 +36,9 @@ impl DataError {
 /// The requested columns and the 1-based data row of each value.
 #[derive(Clone, Debug)]
 pub struct Columns {
+    /// The values of each requested column, in the order asked.
     pub columns: Vec<Vec<f64>>,
+    /// The 1-based data row of each value (the header is not counted).
     pub rows: Vec<usize>,
 }
 

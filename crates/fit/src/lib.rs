@@ -15,6 +15,8 @@
 //!
 //! Left out: non-linear least squares, robust regression.
 
+#![warn(missing_docs)]
+
 mod csvdata;
 mod linear;
 mod york;
@@ -31,8 +33,11 @@ use serde::Serialize;
 /// A fitted parameter.
 #[derive(Clone, Debug, Serialize)]
 pub struct Parameter {
+    /// `intercept`, `slope`, or `c0`, `c1`, ...
     pub name: String,
+    /// The estimate.
     pub value: f64,
+    /// Its standard uncertainty.
     pub standard_uncertainty: f64,
 }
 
@@ -41,16 +46,25 @@ pub struct Parameter {
 pub struct Point {
     /// 1-based data row (the first row after the header is 1).
     pub row: usize,
+    /// x of the point.
     pub x: f64,
+    /// y of the point.
     pub y: f64,
+    /// y − ŷ.
     pub residual: f64,
+    /// The residual divided by the residual standard deviation.
     pub standardized_residual: f64,
+    /// The residual divided by its own standard deviation with the point left out (externally studentized).
     pub studentized_residual: f64,
+    /// The diagonal of the hat matrix.
     pub leverage: f64,
+    /// Cook's distance.
     pub cooks_distance: f64,
+    /// Whether a diagnostic marks the point for a look.
     pub flagged: bool,
     /// Why a point is flagged, in words.
     pub flags: Vec<String>,
+    /// Whether the point was left out of the fit.
     pub excluded: bool,
 }
 
@@ -59,8 +73,10 @@ pub struct Point {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 pub enum FitMethod {
     #[serde(rename = "ordinary least squares")]
+    /// Unweighted least squares.
     OrdinaryLeastSquares,
     #[serde(rename = "weighted least squares")]
+    /// Least squares weighted by 1/u²(y).
     WeightedLeastSquares,
     /// York's straight line with uncertainties in x and y.
     #[serde(rename = "York")]
@@ -93,27 +109,40 @@ impl PartialEq<&str> for FitMethod {
 /// The result of a fit.
 #[derive(Clone, Debug, Serialize)]
 pub struct FitResult {
+    /// How the fit was made.
     pub method: FitMethod,
+    /// The parameters, lowest power first.
     pub parameters: Vec<Parameter>,
+    /// Their covariance matrix.
     pub covariance: Vec<Vec<f64>>,
+    /// Their correlation matrix.
     pub correlation: Vec<Vec<f64>>,
+    /// The standard deviation of the residuals (√(Σr²/ν)).
     pub residual_standard_deviation: f64,
+    /// The residual degrees of freedom ν = n − p.
     pub dof: usize,
+    /// The coefficient of determination.
     pub r_squared: f64,
     /// Weighted fits: Σ ((y − ŷ)/u)², χ²/ν and P(χ²_ν ≥ χ²).
     pub chi_squared: Option<f64>,
+    /// χ²/ν of a weighted fit.
     pub chi_squared_per_dof: Option<f64>,
+    /// The probability of a χ² at least as large, for a weighted fit.
     pub p_value: Option<f64>,
     /// Whether the covariance of a weighted fit was multiplied by χ²/ν.
     pub scaled_by_chi_squared: bool,
+    /// Each point with its diagnostics (empty without diagnostics).
     pub points: Vec<Point>,
+    /// The 1-based data rows left out.
     pub excluded_rows: Vec<usize>,
+    /// Why they were left out.
     pub exclude_reason: Option<String>,
     /// The same fit on every point, when some were excluded.
     pub without_exclusions: Option<Box<FitResult>>,
 }
 
 impl FitResult {
+    /// The index of the parameter called `name`.
     pub fn parameter(&self, name: &str) -> Option<usize> {
         self.parameters.iter().position(|p| p.name == name)
     }
@@ -206,7 +235,9 @@ impl FitError {
 /// What to fit.
 #[derive(Clone, Debug)]
 pub struct FitRequest<'a> {
+    /// x values.
     pub x: &'a [f64],
+    /// y values.
     pub y: &'a [f64],
     /// Standard uncertainties of y (weighted fit).
     pub u_y: Option<&'a [f64]>,
@@ -214,8 +245,11 @@ pub struct FitRequest<'a> {
     pub u_x: Option<&'a [f64]>,
     /// 1-based row numbers of the points (for reports and exclusions).
     pub rows: Vec<usize>,
+    /// Degree of the polynomial (1: a straight line).
     pub degree: usize,
+    /// 1-based data rows to leave out.
     pub exclude: Vec<usize>,
+    /// Why (required with exclusions).
     pub exclude_reason: Option<String>,
     /// For weighted fits: multiply the covariance by χ²/ν.
     pub scale_by_chi_squared: bool,

@@ -6,6 +6,7 @@
 
 use crate::{correlation, flags, FitError, FitResult, Parameter, Point};
 
+/// York's straight line through points with uncertainties in x and y (possibly correlated per point), by iteration; the parameters' covariance as York et al. (2004) give it.
 pub fn fit_york(
     x: &[f64],
     y: &[f64],

@@ -1,5 +1,5 @@
 //! Building a model in Rust. The builder fills a
-//! [`ModelDescription`](crate::description::ModelDescription) — no model-file
+//! [`crate::description::ModelDescription`] — no model-file
 //! text is written — and validates it with the same step as the loader, so a
 //! model built here is checked exactly as a file would be, and
 //! [`ModelBuilder::to_toml`] gives the file that reproduces it. Errors name

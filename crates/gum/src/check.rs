@@ -22,10 +22,13 @@ pub struct CheckItem {
     pub what: String,
     /// 1-based line of the stated figure in the model file.
     pub line: usize,
+    /// The figure as stated.
     pub stated: String,
+    /// The figure as computed.
     pub computed: f64,
     /// (stated − computed) / |computed|, when computed is not 0.
     pub relative_difference: Option<f64>,
+    /// Whether they agree within the rounding of the stated figure.
     pub agrees: bool,
     /// Why it disagrees, in words.
     pub note: Option<String>,
@@ -34,10 +37,12 @@ pub struct CheckItem {
 /// All comparisons of a model.
 #[derive(Clone, Debug, Serialize)]
 pub struct CheckReport {
+    /// One item per stated figure.
     pub items: Vec<CheckItem>,
 }
 
 impl CheckReport {
+    /// Whether every stated figure agrees.
     pub fn all_agree(&self) -> bool {
         self.items.iter().all(|i| i.agrees)
     }

@@ -57,7 +57,9 @@ impl std::fmt::Display for Rule {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Verdict {
+    /// The result is accepted by the decision rule.
     Accepted,
+    /// The result is rejected by the decision rule.
     Rejected,
 }
 
@@ -106,8 +108,10 @@ impl std::fmt::Display for Verdict {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 pub enum RiskKind {
     #[serde(rename = "consumer's")]
+    /// The risk of accepting a nonconforming item.
     Consumer,
     #[serde(rename = "producer's")]
+    /// The risk of rejecting a conforming item.
     Producer,
 }
 
@@ -128,6 +132,7 @@ impl std::fmt::Display for RiskKind {
 }
 
 impl Rule {
+    /// The name in reports.
     pub fn name(&self) -> &'static str {
         match self {
             Rule::SimpleAcceptance => "simple acceptance",
@@ -153,7 +158,9 @@ pub enum Guard {
 /// The distribution of the true values of the production process, N(mean, sd).
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct Process {
+    /// Mean of the process.
     pub mean: f64,
+    /// Standard deviation of the process.
     pub standard_deviation: f64,
 }
 
@@ -161,10 +168,15 @@ pub struct Process {
 /// measurand's unit.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Specification {
+    /// Lower tolerance limit (`None`: no lower limit).
     pub lower: Option<f64>,
+    /// Upper tolerance limit (`None`: no upper limit).
     pub upper: Option<f64>,
+    /// The decision rule.
     pub rule: Rule,
+    /// The guard band.
     pub guard: Guard,
+    /// The distribution of the process, for the global risks.
     pub process: Option<Process>,
 }
 
@@ -172,8 +184,11 @@ pub struct Specification {
 /// `None`) or scaled and shifted Student's t.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Belief {
+    /// The estimate.
     pub value: f64,
+    /// Its standard uncertainty.
     pub standard_uncertainty: f64,
+    /// Degrees of freedom (`None`: normal).
     pub dof: Option<f64>,
 }
 
@@ -247,6 +262,7 @@ impl Belief {
 /// The global risks of JCGM 106:2012, clause 9.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct GlobalRisks {
+    /// The process distribution they assume.
     pub process: Process,
     /// The measuring system's standard uncertainty used (u_c of the result).
     pub measurement_standard_uncertainty: f64,
@@ -261,9 +277,11 @@ pub struct GlobalRisks {
 /// The Monte Carlo side of the assessment.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct McConformance {
+    /// The number of trials.
     pub trials: usize,
     /// Trials with a value inside the tolerance interval (limits included).
     pub inside: usize,
+    /// The fraction of trials inside the tolerance interval.
     pub conformance_probability: f64,
     /// √(p(1 − p)/M): the standard uncertainty of that fraction.
     pub standard_uncertainty: f64,
@@ -298,7 +316,9 @@ impl McConformance {
 /// absent (infinite) limit.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Conformity {
+    /// Lower acceptance limit.
     pub lower_limit: Option<f64>,
+    /// Upper acceptance limit.
     pub upper_limit: Option<f64>,
     /// The decision rule (serialised "simple acceptance", "guarded
     /// acceptance" or "guarded rejection").
@@ -312,18 +332,23 @@ pub struct Conformity {
     pub acceptance_interval: Option<[Option<f64>; 2]>,
     /// The first-order distribution used, in words.
     pub distribution: String,
+    /// The probability that the true value lies within the tolerance limits.
     pub conformance_probability: f64,
     /// Accepted or rejected (serialised "accepted", "rejected").
     pub verdict: Verdict,
     /// Consumer's (accepted item) or producer's (rejected item).
     pub specific_risk_kind: RiskKind,
+    /// The specific risk of the decision (consumer's when accepted, producer's when rejected).
     pub specific_risk: f64,
     /// C_m = (T_U − T_L)/(4 u_c) when both limits are given (JCGM 106:2012, 7.5).
     pub measurement_capability_index: Option<f64>,
+    /// The global risks, when a process distribution is given.
     pub global_risks: Option<GlobalRisks>,
+    /// The conformance probability counted from the Monte Carlo trials.
     pub monte_carlo: Option<McConformance>,
     /// The decision rule and the result in words a certificate can quote.
     pub statement: String,
+    /// Remarks on the assessment.
     pub notes: Vec<String>,
 }
 

@@ -18,6 +18,7 @@ pub struct Constant {
     pub name: &'static str,
     /// What it is.
     pub title: &'static str,
+    /// The value in SI units.
     pub value: f64,
     /// Standard uncertainty (0 for exact constants).
     pub standard_uncertainty: f64,
@@ -26,6 +27,7 @@ pub struct Constant {
 }
 
 impl Constant {
+    /// Whether the value is exact (a defining constant of the SI).
     pub fn is_exact(&self) -> bool {
         self.standard_uncertainty == 0.0
     }

@@ -54,7 +54,7 @@ pub fn welch_satterthwaite(uc: f64, components: &[(f64, Dof)]) -> Dof {
 /// of infinite dof has λ = 1). Then the estimated variance is
 /// û² = Σ_AB Q_AB λ_A λ_B with Q_AB = Σ_{i∈A, j∈B} w_i w_j r_ij. Its mean
 /// and variance follow exactly from the moments E[λ^k] (`scale_moment`),
-/// and a scaled χ² with the same two moments has ν_eff = 2 E[û²]²/var(û²).
+/// and a scaled χ² with the same two moments has ν_eff = 2 E(û²)²/var(û²).
 /// Without correlations between blocks this is exactly eq. (G.2b); a block
 /// alone gives exactly its ν (a quadratic form in a Wishart matrix is a
 /// scaled χ²). A published generalisation for correlated components

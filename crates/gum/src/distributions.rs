@@ -8,9 +8,13 @@
 /// the picture); values outside are counted separately.
 #[derive(Clone, Debug, serde::Serialize)]
 pub struct Histogram {
+    /// The bin edges, one more than the counts.
     pub edges: Vec<f64>,
+    /// The count of each bin.
     pub counts: Vec<u64>,
+    /// Trials below the first edge.
     pub below: u64,
+    /// Trials above the last edge.
     pub above: u64,
 }
 
@@ -19,11 +23,13 @@ pub struct Histogram {
 pub struct Validation {
     /// δ from the first-order u_c(y) and ndig (7.9.2).
     pub numerical_tolerance: f64,
+    /// Significant digits of the tolerance.
     pub ndig: u32,
     /// |y − U_p − y_low|.
     pub d_low: f64,
     /// |y + U_p − y_high|.
     pub d_high: f64,
+    /// Whether both ends agree within the tolerance.
     pub passed: bool,
 }
 
@@ -31,17 +37,27 @@ pub struct Validation {
 /// the JSON report).
 #[derive(Clone, Debug, serde::Serialize)]
 pub struct McMeasurand {
+    /// The measurand.
     pub name: String,
     /// Trials used (after dropping non-finite ones, if that was asked).
     pub trials: usize,
+    /// The seed of the random generator.
     pub seed: u64,
+    /// The mean of the trials.
     pub value: f64,
+    /// Their standard deviation.
     pub standard_uncertainty: f64,
+    /// The coverage probability of the intervals.
     pub coverage_probability: f64,
+    /// The probabilistically symmetric coverage interval.
     pub symmetric_interval: [f64; 2],
+    /// The shortest coverage interval.
     pub shortest_interval: [f64; 2],
+    /// The comparison with the first-order interval (JCGM 101:2008, 8).
     pub validation: Validation,
+    /// Trials dropped because a value was not finite.
     pub non_finite_dropped: usize,
+    /// The histogram of the trials.
     pub histogram: Histogram,
     /// Trials inside the tolerance interval, when the measurand has a
     /// specification (the fraction of trials, as JCGM 101:2008 does for coverage).

@@ -30,6 +30,8 @@
 //! assert!((y.standard_uncertainty - 0.5).abs() < 1e-15);
 //! ```
 
+#![warn(missing_docs)]
+
 pub mod builder;
 pub mod check;
 pub mod conformity;

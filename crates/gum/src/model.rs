@@ -16,44 +16,68 @@ pub use crate::coverage::{Dof, DofRounding};
 pub enum Evaluation {
     /// Type A from `n` observations (JCGM 100:2008, 4.2); `pooled` when the
     /// standard deviation came from earlier work (4.2.4).
-    TypeA { n: usize, pooled: bool },
+    TypeA {
+        /// The number of observations.
+        n: usize,
+        /// Whether s is a pooled standard deviation.
+        pooled: bool,
+    },
     /// Type B (JCGM 100:2008, 4.3).
     TypeB,
     /// No uncertainty: an exact value or an exact constant.
     Exact,
     /// A tabulated physical constant.
-    Constant { table: &'static str },
+    Constant {
+        /// The table it comes from.
+        table: &'static str,
+    },
     /// A parameter of a least-squares fit (its dof are the fit's residual
     /// dof; parameters of one fit are correlated).
-    Fit { fit: String, parameter: String },
+    Fit {
+        /// The fit.
+        fit: String,
+        /// The parameter.
+        parameter: String,
+    },
 }
 
 /// The probability distribution assigned to an input (used by the budget's
 /// labels and by propagation of distributions).
 #[derive(Clone, Debug, PartialEq)]
 pub enum Distribution {
+    /// Normal (Gaussian).
     Normal,
     /// Scaled and shifted t with the input's degrees of freedom.
     StudentT,
+    /// Rectangular (uniform) between the estimate ± a.
     Rectangular {
+        /// The half-width a.
         half_width: f64,
     },
+    /// Triangular between the estimate ± a.
     Triangular {
+        /// The half-width a.
         half_width: f64,
     },
+    /// Arc sine (U-shaped) between the estimate ± a.
     Arcsine {
+        /// The half-width a.
         half_width: f64,
     },
     /// Symmetric trapezoid: half-width of the base `half_width`, of the top
     /// `beta * half_width` (JCGM 100:2008, 4.3.9).
     Trapezoidal {
+        /// The half-width a of the base.
         half_width: f64,
+        /// β: the top's half-width over the base's.
         beta: f64,
     },
     /// Rectangular with inexactly prescribed limits: each limit is known
     /// only to within ±`limit_half_width` (JCGM 101:2008, 6.4.3).
     CurvilinearTrapezoidal {
+        /// The half-width a.
         half_width: f64,
+        /// d: each limit lies within ± d.
         limit_half_width: f64,
     },
     /// Exponential with the estimate as its mean, for a non-negative
@@ -61,7 +85,9 @@ pub enum Distribution {
     Exponential,
     /// Gamma with shape and scale (JCGM 101:2008, 6.4.11).
     Gamma {
+        /// Shape k.
         shape: f64,
+        /// Scale θ.
         scale: f64,
     },
     /// A fixed value.
@@ -111,7 +137,9 @@ impl Distribution {
 /// checks can allow for the rounding of a stated figure.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Stated {
+    /// The value.
     pub value: f64,
+    /// The text as written.
     pub text: String,
     /// 1-based line in the model file.
     pub line: usize,
@@ -135,10 +163,15 @@ impl Stated {
 /// A sensitivity coefficient stated by the model's author, for checking.
 #[derive(Clone, Debug)]
 pub enum StatedSensitivity {
+    /// A number.
     Number(Stated),
+    /// A formula of the inputs and measurands.
     Formula {
+        /// The formula as written.
         text: String,
+        /// The formula.
         expr: Expr,
+        /// 1-based line in the model file (0 when built in memory).
         line: usize,
     },
 }
@@ -146,18 +179,26 @@ pub enum StatedSensitivity {
 /// One input quantity.
 #[derive(Clone, Debug)]
 pub struct Input {
+    /// The name used in formulas.
     pub name: String,
+    /// The estimate (coherent SI when a unit is given).
     pub estimate: f64,
+    /// Its standard uncertainty.
     pub standard_uncertainty: f64,
+    /// Degrees of freedom (`None`: infinite).
     pub dof: Dof,
+    /// How the uncertainty was obtained.
     pub evaluation: Evaluation,
+    /// The distribution assigned.
     pub distribution: Distribution,
     /// Observations of a Type A input, in the order given.
     pub observations: Option<Vec<f64>>,
+    /// Free text for reports.
     pub description: Option<String>,
     /// The unit as written; estimate and uncertainty above are in coherent SI
     /// when it is given.
     pub unit: Option<String>,
+    /// The unit parsed (`None` without a unit).
     pub unit_si: Option<incertus_units::Unit>,
     /// Sensitivity coefficients the author derived, per measurand name.
     pub stated_sensitivities: Vec<(String, StatedSensitivity)>,
@@ -210,8 +251,11 @@ impl Measurand {
 /// A correlation coefficient between two inputs.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Correlation {
+    /// Index of the first input.
     pub a: usize,
+    /// Index of the second input.
     pub b: usize,
+    /// r, from −1 to 1.
     pub coefficient: f64,
     /// Whether it was computed from data (observations taken together,
     /// JCGM 100:2008, 5.2.3, or a fit) rather than stated.
@@ -223,15 +267,21 @@ pub struct Correlation {
 /// One measurand (output quantity).
 #[derive(Clone, Debug)]
 pub struct Measurand {
+    /// The name.
     pub name: String,
     /// The formula as written.
     pub formula_text: String,
+    /// The formula parsed.
     pub formula: Expr,
+    /// Free text for reports.
     pub description: Option<String>,
     /// The unit to report in.
     pub unit: Option<String>,
+    /// The unit parsed (`None` without a unit).
     pub unit_si: Option<incertus_units::Unit>,
+    /// A value stated by hand, to be checked.
     pub expected_value: Option<Stated>,
+    /// A standard uncertainty stated by hand, to be checked.
     pub expected_standard_uncertainty: Option<Stated>,
     /// Tolerance limits and decision rule (JCGM 106:2012), in `unit`.
     pub specification: Option<crate::conformity::Specification>,
@@ -240,16 +290,22 @@ pub struct Measurand {
     /// rather than a point on the scale (SI Brochure, 9th ed., 2.3.1: a
     /// Celsius temperature difference is the same number in K).
     pub interval: bool,
+    /// 1-based line of the measurand in the model file (0 when built in memory).
     pub line: usize,
 }
 
 /// A whole measurement model.
 #[derive(Clone, Debug)]
 pub struct Model {
+    /// A title for reports.
     pub title: Option<String>,
+    /// The coverage probability p.
     pub coverage_probability: f64,
+    /// How ν_eff is rounded.
     pub dof_rounding: DofRounding,
+    /// The input quantities.
     pub inputs: Vec<Input>,
+    /// The correlations between inputs.
     pub correlations: Vec<Correlation>,
     /// In dependency order: a measurand comes after those it uses.
     pub measurands: Vec<Measurand>,
@@ -263,17 +319,24 @@ pub struct Model {
 /// A fit of the model file with its name and data source.
 #[derive(Clone, Debug, serde::Serialize)]
 pub struct NamedFit {
+    /// The fit's name.
     pub name: String,
     /// The CSV file, or "inline" for arrays in the model file.
     pub data: String,
+    /// The column of x (or `x` inline).
     pub x: String,
+    /// The column of y (or `y` inline).
     pub y: String,
+    /// Unit of x.
     pub x_unit: Option<String>,
+    /// Unit of y.
     pub y_unit: Option<String>,
+    /// The fit.
     pub result: incertus_fit::FitResult,
 }
 
 impl Model {
+    /// The input called `name`.
     pub fn input(&self, name: &str) -> Option<&Input> {
         self.inputs.iter().find(|i| i.name == name)
     }

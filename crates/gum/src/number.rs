@@ -67,9 +67,13 @@ pub enum SessionError {
 /// One base input of a session.
 #[derive(Clone, Debug, PartialEq)]
 pub struct BaseInput {
+    /// The name.
     pub name: String,
+    /// The value.
     pub value: f64,
+    /// Its standard uncertainty.
     pub standard_uncertainty: f64,
+    /// Degrees of freedom (`None`: infinite).
     pub dof: Dof,
 }
 
@@ -94,15 +98,20 @@ impl Default for Session {
 /// One line of the budget of an uncertain number.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Line {
+    /// The base input.
     pub input: String,
+    /// Its value.
     pub value: f64,
+    /// Its standard uncertainty.
     pub standard_uncertainty: f64,
+    /// ∂y/∂x at the values.
     pub sensitivity: f64,
     /// |c_i| u(x_i).
     pub contribution: f64,
 }
 
 impl Session {
+    /// An empty session.
     pub fn new() -> Session {
         Session::default()
     }
@@ -130,6 +139,7 @@ impl Session {
         }
     }
 
+    /// The base inputs, in the order made.
     pub fn inputs(&self) -> &[BaseInput] {
         &self.inputs
     }
@@ -310,6 +320,7 @@ impl Uncertain {
         }
     }
 
+    /// The value.
     pub fn value(&self) -> f64 {
         self.value
     }
@@ -342,83 +353,102 @@ impl Uncertain {
         }
     }
 
+    /// √x, with the sensitivity to every base input carried through (the chain rule).
     pub fn sqrt(&self) -> Uncertain {
         let s = self.value.sqrt();
         self.chain(s, 0.5 / s)
     }
+    /// ∛x, with the sensitivity to every base input carried through (the chain rule).
     pub fn cbrt(&self) -> Uncertain {
         let s = self.value.cbrt();
         self.chain(s, 1.0 / (3.0 * s * s))
     }
+    /// eˣ, with the sensitivity to every base input carried through (the chain rule).
     pub fn exp(&self) -> Uncertain {
         let e = self.value.exp();
         self.chain(e, e)
     }
+    /// ln x, with the sensitivity to every base input carried through (the chain rule).
     pub fn ln(&self) -> Uncertain {
         self.chain(self.value.ln(), 1.0 / self.value)
     }
+    /// log₁₀ x, with the sensitivity to every base input carried through (the chain rule).
     pub fn log10(&self) -> Uncertain {
         self.chain(
             self.value.log10(),
             1.0 / (self.value * std::f64::consts::LN_10),
         )
     }
+    /// log₂ x, with the sensitivity to every base input carried through (the chain rule).
     pub fn log2(&self) -> Uncertain {
         self.chain(
             self.value.log2(),
             1.0 / (self.value * std::f64::consts::LN_2),
         )
     }
+    /// sin x, with the sensitivity to every base input carried through (the chain rule).
     pub fn sin(&self) -> Uncertain {
         self.chain(self.value.sin(), self.value.cos())
     }
+    /// cos x, with the sensitivity to every base input carried through (the chain rule).
     pub fn cos(&self) -> Uncertain {
         self.chain(self.value.cos(), -self.value.sin())
     }
+    /// tan x, with the sensitivity to every base input carried through (the chain rule).
     pub fn tan(&self) -> Uncertain {
         let c = self.value.cos();
         self.chain(self.value.tan(), 1.0 / (c * c))
     }
+    /// asin x, with the sensitivity to every base input carried through (the chain rule).
     pub fn asin(&self) -> Uncertain {
         self.chain(
             self.value.asin(),
             1.0 / (1.0 - self.value * self.value).sqrt(),
         )
     }
+    /// acos x, with the sensitivity to every base input carried through (the chain rule).
     pub fn acos(&self) -> Uncertain {
         self.chain(
             self.value.acos(),
             -1.0 / (1.0 - self.value * self.value).sqrt(),
         )
     }
+    /// atan x, with the sensitivity to every base input carried through (the chain rule).
     pub fn atan(&self) -> Uncertain {
         self.chain(self.value.atan(), 1.0 / (1.0 + self.value * self.value))
     }
+    /// sinh x, with the sensitivity to every base input carried through (the chain rule).
     pub fn sinh(&self) -> Uncertain {
         self.chain(self.value.sinh(), self.value.cosh())
     }
+    /// cosh x, with the sensitivity to every base input carried through (the chain rule).
     pub fn cosh(&self) -> Uncertain {
         self.chain(self.value.cosh(), self.value.sinh())
     }
+    /// tanh x, with the sensitivity to every base input carried through (the chain rule).
     pub fn tanh(&self) -> Uncertain {
         let c = self.value.cosh();
         self.chain(self.value.tanh(), 1.0 / (c * c))
     }
+    /// asinh x, with the sensitivity to every base input carried through (the chain rule).
     pub fn asinh(&self) -> Uncertain {
         self.chain(
             self.value.asinh(),
             1.0 / (self.value * self.value + 1.0).sqrt(),
         )
     }
+    /// acosh x, with the sensitivity to every base input carried through (the chain rule).
     pub fn acosh(&self) -> Uncertain {
         self.chain(
             self.value.acosh(),
             1.0 / (self.value * self.value - 1.0).sqrt(),
         )
     }
+    /// atanh x, with the sensitivity to every base input carried through (the chain rule).
     pub fn atanh(&self) -> Uncertain {
         self.chain(self.value.atanh(), 1.0 / (1.0 - self.value * self.value))
     }
+    /// |x|, with the sensitivity to every base input carried through (the chain rule).
     pub fn abs(&self) -> Uncertain {
         self.chain(
             self.value.abs(),
@@ -431,6 +461,7 @@ impl Uncertain {
             },
         )
     }
+    /// sign x (zero derivative), with the sensitivity to every base input carried through (the chain rule).
     pub fn sign(&self) -> Uncertain {
         Uncertain::exact(if self.value > 0.0 {
             1.0
@@ -463,6 +494,7 @@ impl Uncertain {
             grad: merge(&self.grad, da, &e.grad, db),
         }
     }
+    /// atan2(self, x), the angle of the point (x, self), with sensitivities.
     pub fn atan2(&self, x: &Uncertain) -> Uncertain {
         let r2 = self.value * self.value + x.value * x.value;
         Uncertain {
@@ -470,6 +502,7 @@ impl Uncertain {
             grad: merge(&self.grad, x.value / r2, &x.grad, -self.value / r2),
         }
     }
+    /// hypot(self, b) = √(self² + b²), with sensitivities.
     pub fn hypot(&self, b: &Uncertain) -> Uncertain {
         let h = self.value.hypot(b.value);
         Uncertain {

@@ -122,19 +122,27 @@ fn perr(message: impl Into<String>, detail: Option<String>) -> PropagationError 
 /// One line of an uncertainty budget.
 #[derive(Clone, Debug, Serialize)]
 pub struct BudgetLine {
+    /// The input.
     pub input: String,
+    /// Its estimate, in its own unit.
     pub value: f64,
+    /// Its standard uncertainty, in its own unit.
     pub standard_uncertainty: f64,
     /// `None` = infinite.
     pub dof: Option<f64>,
+    /// The name of its distribution (`normal`, `t`, `rectangular`, ...).
     pub distribution: String,
     /// Type A, Type B, exact, constant or a fit parameter.
     pub evaluation: EvaluationKind,
     /// Number of observations of a Type A input.
     pub observations: Option<usize>,
+    /// Its unit.
     pub unit: Option<String>,
+    /// Its description.
     pub description: Option<String>,
+    /// The sensitivity coefficient, in the units of the measurand per unit of the input.
     pub sensitivity: f64,
+    /// The sensitivity coefficient as a formula.
     pub sensitivity_formula: String,
     /// |c_i| u(x_i), the contribution u_i(y) (JCGM 100:2008, 5.1.3).
     pub contribution: f64,
@@ -145,12 +153,17 @@ pub struct BudgetLine {
 /// The term of a budget that comes from one correlated pair.
 #[derive(Clone, Debug, Serialize)]
 pub struct CorrelationLine {
+    /// The two inputs.
     pub inputs: [String; 2],
+    /// Their correlation coefficient.
     pub coefficient: f64,
     /// 2 c_a c_b r u(x_a) u(x_b), in the unit of u²(y).
     pub term: f64,
+    /// Its share of u² (may be negative).
     pub share: f64,
+    /// Whether the coefficient comes from data (observed together, a fit).
     pub from_observations: bool,
+    /// The fit it comes from, if any.
     pub from_fit: Option<String>,
 }
 
@@ -170,11 +183,15 @@ pub enum Method {
 /// them and why. Every writer and the conformity decision read this one.
 #[derive(Clone, Debug, Serialize)]
 pub struct ReportedResult {
+    /// Which method gives the reported result.
     pub method: Method,
     /// Why this method, in words.
     pub why: String,
+    /// The estimate.
     pub value: f64,
+    /// The standard uncertainty.
     pub standard_uncertainty: f64,
+    /// The coverage probability.
     pub coverage_probability: f64,
     /// y ± U (first order) or the probabilistically symmetric interval
     /// (Monte Carlo), in the measurand's unit.
@@ -186,24 +203,37 @@ pub struct ReportedResult {
 /// The result for one measurand.
 #[derive(Clone, Debug, Serialize)]
 pub struct MeasurandResult {
+    /// The measurand.
     pub name: String,
+    /// The unit it is reported in.
     pub unit: Option<String>,
+    /// Its description.
     pub description: Option<String>,
+    /// Its formula as written.
     pub formula: String,
+    /// The estimate, in `unit`.
     pub value: f64,
+    /// The combined standard uncertainty u_c (first order).
     pub standard_uncertainty: f64,
+    /// u_c/|y|, when y ≠ 0.
     pub relative_standard_uncertainty: Option<f64>,
     /// `None` = infinite.
     pub effective_dof: Option<f64>,
     /// The dof used for the coverage factor (after the rounding rule).
     pub effective_dof_used: Option<f64>,
+    /// The coverage probability p.
     pub coverage_probability: f64,
+    /// The coverage factor k.
     pub coverage_factor: f64,
+    /// The expanded uncertainty U = k u.
     pub expanded_uncertainty: f64,
+    /// u with the higher-order terms, when asked for.
     pub second_order_standard_uncertainty: Option<f64>,
+    /// One line per input the formula uses.
     pub budget: Vec<BudgetLine>,
     /// Σ of the correlation terms, in the unit of u²(y).
     pub correlation_terms: f64,
+    /// One line per correlated pair of those inputs.
     pub correlation_budget: Vec<CorrelationLine>,
     /// Filled by propagation of distributions when it is run.
     pub monte_carlo: Option<crate::distributions::McMeasurand>,
@@ -244,19 +274,28 @@ impl MeasurandResult {
 /// A square matrix with names.
 #[derive(Clone, Debug, Serialize)]
 pub struct NamedMatrix {
+    /// The row and column names.
     pub names: Vec<String>,
+    /// The matrix.
     pub matrix: Vec<Vec<f64>>,
 }
 
 /// All results of a model.
 #[derive(Clone, Debug, Serialize)]
 pub struct Report {
+    /// The model's title.
     pub title: Option<String>,
+    /// The fits of the model.
     pub fits: Vec<crate::model::NamedFit>,
+    /// One result per measurand, in dependency order.
     pub results: Vec<MeasurandResult>,
+    /// Correlation of the measurands (JCGM 102:2011).
     pub correlation_matrix: NamedMatrix,
+    /// Covariance of the measurands.
     pub covariance_matrix: NamedMatrix,
+    /// Remarks on the evaluation as a whole.
     pub notes: Vec<String>,
+    /// How ν_eff was rounded.
     pub effective_dof_rounding: crate::coverage::DofRounding,
 }
 
@@ -310,8 +349,10 @@ pub enum EvaluationKind {
     #[serde(rename = "B")]
     TypeB,
     #[serde(rename = "exact")]
+    /// An exact value.
     Exact,
     #[serde(rename = "constant")]
+    /// A tabulated constant.
     Constant,
     /// A parameter of a least-squares fit.
     #[serde(rename = "fit")]

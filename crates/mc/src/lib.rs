@@ -17,6 +17,8 @@
 //! for its stopping rule (the probabilistically symmetric one is used, as in
 //! JCGM 101:2008, 7.9.4); Monte Carlo for the higher-order terms.
 
+#![warn(missing_docs)]
+
 mod sample;
 pub mod stats;
 
@@ -40,10 +42,12 @@ pub const DEFAULT_SEED: u64 = 20_260_101;
 /// How many trials.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Trials {
+    /// This many trials.
     Fixed(usize),
     /// The adaptive procedure of JCGM 101:2008, 7.9, to `ndig` significant
     /// digits, with at most `max` trials.
     Adaptive {
+        /// The largest number of trials.
         max: usize,
     },
 }
@@ -51,7 +55,9 @@ pub enum Trials {
 /// Settings of one run.
 #[derive(Clone, Debug)]
 pub struct Settings {
+    /// How many trials.
     pub trials: Trials,
+    /// The seed of the random generator (the same seed gives the same trials).
     pub seed: u64,
     /// Worker threads (`None`: all cores).
     pub threads: Option<usize>,
@@ -119,26 +125,38 @@ pub use incertus_gum::distributions::{McMeasurand, Validation};
 /// Adaptive-procedure bookkeeping (JCGM 101:2008, 7.9).
 #[derive(Clone, Debug, Serialize)]
 pub struct Adaptive {
+    /// Significant digits asked of the standard uncertainties.
     pub ndig: u32,
+    /// Trials per sequence.
     pub trials_per_sequence: usize,
+    /// Sequences run.
     pub sequences: usize,
+    /// Whether the results became stable within `max`.
     pub converged: bool,
 }
 
 /// Everything a run produced.
 #[derive(Clone, Debug, Serialize)]
 pub struct McReport {
+    /// Trials run.
     pub trials: usize,
+    /// The seed.
     pub seed: u64,
+    /// Trials per block (the unit of work and of the moments).
     pub block_size: usize,
+    /// Worker threads.
     pub threads: usize,
     /// Bytes held for the trials (outputs and the sort buffers).
     pub memory_bytes: u64,
+    /// The adaptive procedure's record, when it ran.
     pub adaptive: Option<Adaptive>,
     /// How correlated inputs were sampled, in words.
     pub correlated_sampling: Vec<String>,
+    /// One result per measurand.
     pub results: Vec<McMeasurand>,
+    /// Covariance of the measurands from the trials.
     pub covariance_matrix: NamedMatrix,
+    /// Correlation of the measurands from the trials.
     pub correlation_matrix: NamedMatrix,
 }
 

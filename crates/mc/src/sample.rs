@@ -44,43 +44,73 @@ pub type Stream = Xoshiro256PlusPlus;
 /// The marginal distribution of one input as sampled.
 #[derive(Clone, Debug)]
 pub enum Marginal {
+    /// A fixed value.
     Fixed(f64),
+    /// Normal.
     Normal {
+        /// Mean.
         x: f64,
+        /// Standard deviation.
         u: f64,
     },
+    /// Scaled and shifted t.
     T {
+        /// Location.
         x: f64,
+        /// Scale (the standard uncertainty).
         u: f64,
+        /// Degrees of freedom.
         nu: f64,
+        /// The standard t sampler.
         t: StudentT<f64>,
     },
+    /// Rectangular.
     Rectangular {
+        /// Centre.
         x: f64,
+        /// Half-width.
         a: f64,
     },
+    /// Curvilinear trapezoid.
     CurvilinearTrapezoidal {
+        /// Centre.
         x: f64,
+        /// Half-width.
         a: f64,
+        /// Half-width of the interval each limit lies in.
         d: f64,
     },
+    /// Trapezoid.
     Trapezoidal {
+        /// Centre.
         x: f64,
+        /// Half-width of the base.
         a: f64,
+        /// Top half-width over base half-width.
         beta: f64,
     },
+    /// Triangular.
     Triangular {
+        /// Centre.
         x: f64,
+        /// Half-width.
         a: f64,
     },
+    /// Arc sine.
     Arcsine {
+        /// Centre.
         x: f64,
+        /// Half-width.
         a: f64,
     },
+    /// Exponential.
     Exponential {
+        /// Mean.
         mean: f64,
     },
+    /// Gamma.
     Gamma {
+        /// The gamma sampler.
         g: Gamma<f64>,
     },
 }
@@ -346,19 +376,32 @@ fn bisect(f: impl Fn(f64) -> f64, p: f64, mut lo: f64, mut hi: f64) -> f64 {
 #[derive(Clone, Debug)]
 pub enum Group {
     /// One independent input.
-    Single { input: usize, marginal: Marginal },
+    Single {
+        /// The input.
+        input: usize,
+        /// Its distribution.
+        marginal: Marginal,
+    },
     /// Correlated Gaussian inputs: x + L z.
     Gaussian {
+        /// The inputs of the group.
         inputs: Vec<usize>,
+        /// Their estimates.
         x: Vec<f64>,
+        /// The Cholesky factor of their covariance.
         l: Vec<Vec<f64>>,
     },
     /// Inputs observed together: multivariate t with shared ν.
     MultiT {
+        /// The inputs of the group.
         inputs: Vec<usize>,
+        /// Their estimates.
         x: Vec<f64>,
+        /// The Cholesky factor of the scale matrix.
         l: Vec<Vec<f64>>,
+        /// Degrees of freedom.
         nu: f64,
+        /// The χ² sampler of the t mixture.
         chi: ChiSquared<f64>,
         /// Variance of the draws over the first-order u² of each member:
         /// ν/(ν − 2) times the scale factor (infinite for ν ≤ 2).
@@ -366,8 +409,11 @@ pub enum Group {
     },
     /// Correlated inputs with other marginals: Gaussian copula.
     Copula {
+        /// The inputs of the group.
         inputs: Vec<usize>,
+        /// The Cholesky factor of their correlation matrix.
         l: Vec<Vec<f64>>,
+        /// The marginal of each input.
         marginals: Vec<Marginal>,
     },
 }

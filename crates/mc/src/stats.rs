@@ -292,8 +292,11 @@ pub fn radix_sort(v: &mut [f64], scratch: &mut Vec<f64>) {
 /// Both coverage intervals and the histogram of a set of trials.
 #[derive(Clone, Debug)]
 pub struct Summary {
+    /// The probabilistically symmetric coverage interval.
     pub symmetric: [f64; 2],
+    /// The shortest coverage interval.
     pub shortest: [f64; 2],
+    /// The histogram for plots.
     pub histogram: Histogram,
     /// Whether the values had to be sorted in full (see [`summarize`]).
     pub sorted_in_full: bool,

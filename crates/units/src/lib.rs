@@ -22,6 +22,8 @@
 //! temperature difference (a deviation from 20 °C, say) is best given in K,
 //! since `degC` alone converts values with the offset.
 
+#![warn(missing_docs)]
+
 use std::fmt;
 
 /// Exponents of the seven base dimensions: length, mass, time, electric
@@ -33,8 +35,10 @@ pub struct Dimension(pub [i32; 7]);
 const BASE: [&str; 7] = ["m", "kg", "s", "A", "K", "mol", "cd"];
 
 impl Dimension {
+    /// The dimension of a pure number.
     pub const ONE: Dimension = Dimension([0; 7]);
 
+    /// Whether this is the dimension of a pure number.
     pub fn is_one(&self) -> bool {
         self.0 == [0; 7]
     }
@@ -104,8 +108,11 @@ impl fmt::Display for Dimension {
 /// A unit: value in the unit × `factor` (+ `offset`) = value in coherent SI.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Unit {
+    /// The unit as written.
     pub text: String,
+    /// Its dimension.
     pub dimension: Dimension,
+    /// Its factor to the coherent SI unit.
     pub factor: f64,
     /// Only the degree Celsius has one (273.15 K), and only alone.
     pub offset: f64,
@@ -127,10 +134,12 @@ impl Unit {
         u * self.factor
     }
 
+    /// A difference in coherent SI in this unit (the factor alone).
     pub fn difference_from_si(&self, u: f64) -> f64 {
         u / self.factor
     }
 
+    /// No unit: factor 1, no offset.
     pub fn dimensionless() -> Unit {
         Unit {
             text: "1".into(),
@@ -151,6 +160,7 @@ pub struct UnitError {
     pub message: String,
     /// Byte offsets of the part of the text concerned.
     pub start: usize,
+    /// One past the last byte concerned.
     pub end: usize,
 }
 

@@ -36,9 +36,11 @@ pub struct ModelError {
     pub file: String,
     /// 1-based line and column; 0 when the problem is the file as a whole.
     pub line: usize,
+    /// 1-based column; 0 with `line`.
     pub column: usize,
     /// Key path, e.g. `inputs.d.dof` (empty for the whole file).
     pub path: String,
+    /// What is wrong, for a person.
     pub message: String,
     /// More lines (a formula with a caret, a hint).
     pub detail: Option<String>,
