@@ -912,7 +912,7 @@ pub fn csv(report: &Report) -> String {
                 format!("{:e}", b.standard_uncertainty),
                 opt(b.dof),
                 b.evaluation.to_string(),
-                b.distribution.clone(),
+                b.distribution.to_string(),
                 format!("{:e}", b.sensitivity),
                 csv_field(&b.sensitivity_formula),
                 format!("{:e}", b.contribution),

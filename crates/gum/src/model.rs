@@ -94,6 +94,27 @@ pub enum Distribution {
     Exact,
 }
 
+/// Written by its name (`normal`, `t`, `rectangular`, ...), as in model
+/// files and reports.
+impl std::fmt::Display for Distribution {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// Serialised by its name, as reports have always shown it.
+impl serde::Serialize for Distribution {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(self.name())
+    }
+}
+
+impl PartialEq<&str> for Distribution {
+    fn eq(&self, other: &&str) -> bool {
+        self.name() == *other
+    }
+}
+
 impl Distribution {
     /// The name used in files and reports.
     pub fn name(&self) -> &'static str {

@@ -130,8 +130,8 @@ pub struct BudgetLine {
     pub standard_uncertainty: f64,
     /// `None` = infinite.
     pub dof: Option<f64>,
-    /// The name of its distribution (`normal`, `t`, `rectangular`, ...).
-    pub distribution: String,
+    /// Its distribution (serialised by name: `normal`, `t`, `rectangular`, ...).
+    pub distribution: Distribution,
     /// Type A, Type B, exact, constant or a fit parameter.
     pub evaluation: EvaluationKind,
     /// Number of observations of a Type A input.
@@ -934,7 +934,7 @@ impl<'a> Context<'a> {
                     value: inp.shown().0,
                     standard_uncertainty: self.u[i] / f_in,
                     dof: inp.dof,
-                    distribution: inp.distribution.name().to_string(),
+                    distribution: inp.distribution.clone(),
                     evaluation,
                     observations,
                     unit: inp.unit.clone(),
