@@ -214,11 +214,18 @@ fn the_shell_takes_every_name_a_model_file_takes() {
     let dir = scratch("shell_names");
     let (code, out) = session(
         "α = 1.2e-5 ± 1e-6 [1/K]\nρ_w = 998.2 ± 0.05 [kg/m^3]\nΔT = 2.0 ± 0.1 [K]\n\
-         V0 = 10 ± 0.01 [mL]\nm = ρ_w*V0*(1 + α*ΔT) [g]\nsave names.toml\na.b = 3\nquit\n",
+         V0 = 10 ± 0.01 [mL]\nm = ρ_w*V0*(1 + α*ΔT) [g]\nsave names.toml\na.b = 3\n\
+         k = ρ_v*2\nquit\n",
         &dir.join("home"),
         &dir,
     );
-    assert_eq!(code, 1, "one statement (a.b) fails\n{out}");
+    assert_eq!(code, 1, "{out}");
+    // A slip is matched against the whole session, not only the part of
+    // the model the statement touches.
+    assert!(
+        out.contains("error: `ρ_v` is neither an input nor a measurand; did you mean `ρ_w`?"),
+        "{out}"
+    );
     assert!(out.contains("m = 9.982"), "{out}");
     assert!(
         out.contains("error: `a.b` cannot be a name: a name starts with a letter"),

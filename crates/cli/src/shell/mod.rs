@@ -630,8 +630,16 @@ impl Shell {
                 return self.say("error: montecarlo NAME [TRIALS]: TRIALS is a whole number")
             }
         };
-        let Some(part) = self.result_part(name) else {
-            return;
+        if !self.session.is_measurand(name) {
+            return self.fail(format!(
+                "`{name}` is not a result (define it with {name} = formula)"
+            ));
+        }
+        // The whole session, so that the trials are those `eval --mc` of the
+        // saved session draws with the same seed.
+        let part = match self.session.evaluate_all() {
+            Ok(p) => p,
+            Err(e) => return self.fail(e),
         };
         let j = part
             .report

@@ -178,17 +178,25 @@ impl Session {
         let mut ms: HashSet<&str> = HashSet::new();
         let mut names: HashSet<String> = inputs.iter().map(|s| s.to_string()).collect();
         let mut stack: Vec<&str> = measurands.iter().map(String::as_str).collect();
-        while let Some(m) = stack.pop() {
-            if !self.is_measurand(m) || !ms.insert(m) {
-                continue;
-            }
-            for n in self.uses.get(m).into_iter().flatten() {
-                if self.is_measurand(n) {
-                    stack.push(n);
-                } else {
-                    names.insert(n.clone());
+        let mut looked_for_slips = false;
+        loop {
+            while let Some(m) = stack.pop() {
+                if !self.is_measurand(m) || !ms.insert(m) {
+                    continue;
+                }
+                for n in self.uses.get(m).into_iter().flatten() {
+                    if self.is_measurand(n) {
+                        stack.push(n);
+                    } else {
+                        names.insert(n.clone());
+                    }
                 }
             }
+            if looked_for_slips {
+                break;
+            }
+            looked_for_slips = true;
+            stack = self.likely_meant(&mut names);
         }
         self.close_over_correlations(&mut names);
         let mut part = ModelDescription {
@@ -230,6 +238,32 @@ impl Session {
             .cloned()
             .collect();
         part
+    }
+
+    /// For a name that is defined nowhere (a slip the evaluation will
+    /// refuse), the session's closest name, so that the error can say
+    /// "did you mean" from the whole session, not only from the part: an
+    /// input is added to `names`, a measurand returned to be taken in with
+    /// what it uses.
+    fn likely_meant(&self, names: &mut HashSet<String>) -> Vec<&str> {
+        let unknown: Vec<String> = names
+            .iter()
+            .filter(|n| !self.input_at.contains_key(*n) && !self.measurand_at.contains_key(*n))
+            .cloned()
+            .collect();
+        let mut more = Vec::new();
+        for u in unknown {
+            let all = self.input_at.keys().chain(self.measurand_at.keys());
+            if let Some(c) = incertus_gum::description::closest_name(&u, all.map(String::as_str)) {
+                match self.measurand_at.get_key_value(c) {
+                    Some((k, _)) => more.push(k.as_str()),
+                    None => {
+                        names.insert(c.to_string());
+                    }
+                }
+            }
+        }
+        more
     }
 
     /// Add the inputs correlated with those in `names`, to a fixed point.

@@ -18,6 +18,9 @@ pub struct KeyProblem {
     pub message: String,
     /// More lines (the allowed values).
     pub detail: Option<String>,
+    /// The key whose place in a file to point at, when it is not `key`
+    /// itself (a missing key: the key it should go with).
+    pub place: Option<&'static str>,
 }
 
 fn problem(key: &'static str, message: impl Into<String>) -> KeyProblem {
@@ -25,6 +28,7 @@ fn problem(key: &'static str, message: impl Into<String>) -> KeyProblem {
         key,
         message: message.into(),
         detail: None,
+        place: None,
     }
 }
 
@@ -758,10 +762,12 @@ impl InputKeys {
                 .map_or("the name of one of its parameters".into(), |n| {
                     format!("one of {}", n.join(", "))
                 });
-            return Err(problem(
+            let mut p = problem(
                 "parameter",
                 format!("give parameter = {names} (the parameters of fit `{fit}`)"),
-            ));
+            );
+            p.place = Some("fit");
+            return Err(p);
         };
         self.forbid_stated("a fitted parameter takes its value, uncertainty and dof from the fit")?;
         if self.distribution.is_some() {

@@ -492,3 +492,9 @@ pub fn is_formula_name(name: &str) -> bool {
     matches!(incertus_expr::parse(name),
         Ok(incertus_expr::Expr { kind: incertus_expr::Kind::Var(ref n), .. }) if n == name)
 }
+
+/// The one of `names` closest to `word` by edit distance, when close
+/// enough to be a likely slip (the "did you mean" of every message).
+pub fn closest_name<'a>(word: &str, names: impl Iterator<Item = &'a str>) -> Option<&'a str> {
+    crate::load::closest(word, names)
+}

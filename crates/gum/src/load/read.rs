@@ -38,10 +38,11 @@ pub(super) fn model(doc: &Doc, top: &mut Reader) -> Result<ModelDescription> {
 
 /// The error for a problem with the keys of the table `r` reads.
 fn key_problem(r: &Reader, p: KeyProblem) -> ModelError {
-    let span = if p.key.is_empty() {
+    let at = p.place.unwrap_or(p.key);
+    let span = if at.is_empty() {
         r.span.clone()
     } else {
-        r.value_span_of(p.key)
+        r.value_span_of(at)
     };
     let mut e = r.doc.error(span, &join(&r.path, p.key), p.message);
     e.detail = p.detail;
