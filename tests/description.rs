@@ -307,7 +307,10 @@ fn description() -> impl Strategy<Value = ModelDescription> {
             };
             d.fits.push(FitDescription {
                 name: "line".into(),
-                description: Some("a \"quoted\" line\nwith two lines".into()),
+                description: Some(
+                    "a \"quoted\" line\nwith two lines, x = 0.000000000000000001 and 'y = 2'"
+                        .into(),
+                ),
                 data: FitData::Inline {
                     x: vec![1.0, 2.0, 3.0, 4.0],
                     y: vec![2.1, 3.9, 6.2, 7.8],

@@ -423,11 +423,12 @@ impl ModelDescription {
     /// The model file that loads back into this description.
     pub fn to_toml(&self) -> String {
         let form = file::FileModel::from(self.clone());
-        toml::to_string(&form).unwrap_or_else(|e| {
+        match toml::to_string(&form) {
+            Ok(text) => powers_of_ten(&text),
             // Only non-finite numbers inside nested arrays could fail; they
             // are refused by validation, so say so in the file itself.
-            format!("# this description cannot be written as a model file: {e}\n")
-        })
+            Err(e) => format!("# this description cannot be written as a model file: {e}\n"),
+        }
     }
 
     /// Read a model file's text into a description, without validating it
@@ -497,4 +498,76 @@ pub fn is_formula_name(name: &str) -> bool {
 /// enough to be a likely slip (the "did you mean" of every message).
 pub fn closest_name<'a>(word: &str, names: impl Iterator<Item = &'a str>) -> Option<&'a str> {
     crate::load::closest(word, names)
+}
+
+/// Long decimal numbers of a TOML text (`0.000000000000000000000000000001`,
+/// `602214076000000000000000.0`) in their shortest form with a power of ten
+/// (`1e-30`, `6.02214076e23`), the same value to the last bit; strings,
+/// keys and integers are left as they are.
+fn powers_of_ten(text: &str) -> String {
+    let bytes = text.as_bytes();
+    let mut out = String::with_capacity(text.len());
+    let (mut i, mut after_equals) = (0, false);
+    while i < bytes.len() {
+        let c = bytes[i];
+        if c == b'"' || c == b'\'' {
+            // A string (basic, literal, or either multi-line): copied as it
+            // is, to its closing quotes.
+            let delimiter: &[u8] = if bytes[i..].starts_with(&[c, c, c]) {
+                &bytes[i..i + 3]
+            } else {
+                &bytes[i..i + 1]
+            };
+            let mut j = i + delimiter.len();
+            while j < bytes.len() && !bytes[j..].starts_with(delimiter) {
+                j += if c == b'"' && bytes[j] == b'\\' { 2 } else { 1 };
+            }
+            // A multi-line string may end in one or two quotes of its own
+            // before the closing three (`""""` = `"` and the end).
+            for _ in 0..2 {
+                if delimiter.len() == 3 && bytes.get(j + 3) == Some(&c) {
+                    j += 1;
+                }
+            }
+            let end = (j + delimiter.len()).min(bytes.len());
+            out.push_str(&text[i..end]);
+            i = end;
+            continue;
+        }
+        let starts_number = (c.is_ascii_digit() || c == b'-')
+            && after_equals
+            && (i == 0 || !(bytes[i - 1].is_ascii_alphanumeric() || bytes[i - 1] == b'_'));
+        if starts_number {
+            let mut j = i + 1;
+            while j < bytes.len()
+                && (bytes[j].is_ascii_digit()
+                    || matches!(bytes[j], b'.' | b'e' | b'E' | b'-' | b'+'))
+            {
+                j += 1;
+            }
+            let token = &text[i..j];
+            match token.parse::<f64>() {
+                Ok(v) if token.contains('.') && token.len() > 12 && v.is_finite() => {
+                    let short = format!("{v:e}");
+                    out.push_str(if short.len() < token.len() {
+                        &short
+                    } else {
+                        token
+                    });
+                }
+                _ => out.push_str(token),
+            }
+            i = j;
+            continue;
+        }
+        match c {
+            b'=' => after_equals = true,
+            b'\n' => after_equals = false,
+            _ => {}
+        }
+        let ch = text[i..].chars().next().expect("inside the text");
+        out.push(ch);
+        i += ch.len_utf8();
+    }
+    out
 }
