@@ -15,7 +15,7 @@ use criterion::{criterion_group, criterion_main, Criterion};
 fn script(pairs: usize) -> Vec<String> {
     let mut lines = Vec::with_capacity(2 * pairs);
     for i in 0..pairs {
-        lines.push(format!("x{i} = {}.0 ± 0.01", i + 1));
+        lines.push(format!("x{i} = {}.0 u=0.01", i + 1));
         lines.push(format!("y{i} = 2*x{i} + x{}", i.saturating_sub(1)));
     }
     lines

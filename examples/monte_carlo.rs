@@ -21,7 +21,7 @@ fn main() {
     let mc = run(&model, &gum, &Settings::default()).expect("Monte Carlo run");
     for (g, m) in gum.results.iter().zip(&mc.results) {
         println!(
-            "{}: first order {:.6} ± {:.6}; Monte Carlo {:.6} ± {:.6}, 95 % interval [{:.6}, {:.6}]; validated: {}",
+            "{}: first order {:.6}, u = {:.6}; Monte Carlo {:.6}, u = {:.6}, 95 % interval [{:.6}, {:.6}]; validated: {}",
             g.name,
             g.value,
             g.standard_uncertainty,

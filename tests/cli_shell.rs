@@ -33,8 +33,8 @@ fn session(input: &str, home: &std::path::Path, cwd: &std::path::Path) -> (i32, 
 fn a_scripted_session_prints_exactly_this() {
     let dir = scratch("shell1");
     let (code, out) = session(
-        "x = 2.0 ± 0.1\n\
-         y = 3.0 +- 0.2\n\
+        "x = 2.0 u=0.1\n\
+         y = 3.0 u = 0.2\n\
          z = 1.234(5)\n\
          w = 10.0 ± 0.5 (k=2)\n\
          q = x*y\n\
@@ -55,15 +55,15 @@ fn a_scripted_session_prints_exactly_this() {
     // u(x y) = √((3·0.1)² + (2·0.2)²) = 0.5; with r = 0.5 the correlation
     // term 2·3·2·0.5·0.1·0.2 = 0.12 makes u² = 0.37 (JCGM 100:2008, 5.2.2).
     let expected = "\
-x = 2.00 ± 0.10   [2.00(10)]   (± is the standard uncertainty u)
-y = 3.00 ± 0.20   [3.00(20)]   (± is the standard uncertainty u)
-z = 1.2340 ± 0.0050   [1.2340(50)]   (± is the standard uncertainty u)
-w = 10.00 ± 0.25   [10.00(25)]   (± is the standard uncertainty u)
-q = 6.00 ± 0.50   [6.00(50)]   (± is the standard uncertainty u)
+x = 2.00, u(x) = 0.10   (concise: 2.00(10))
+y = 3.00, u(y) = 0.20   (concise: 3.00(20))
+z = 1.2340, u(z) = 0.0050   (concise: 1.2340(50))
+w = 10.00, u(w) = 0.25   (concise: 10.00(25))
+q = 6.00, u(q) = 0.50   (concise: 6.00(50))
 r = 0  (exact)
-4.00 ± 0.40   [4.00(40)]   (± is the standard uncertainty u)
+4.00, u = 0.40   (concise: 4.00(40))
 r(x, y) = 0.5
-6.00 ± 0.61   [6.00(61)]   (± is the standard uncertainty u)
+6.00, u = 0.61   (concise: 6.00(61))
 ∂q/∂x = y  = 3
 ∂q/∂y = x  = 2
 error: unknown function `foo`; known functions: sqrt, cbrt, exp, ln, log10, log2, sin, cos, tan, asin, acos, atan, atan2, sinh, cosh, tanh, asinh, acosh, atanh, abs, sign, hypot, pow
@@ -72,7 +72,7 @@ foo(x)
 error: expected a number, a name or '(' but found the end of the formula
 x*
   ^
-6.00 ± 0.61   [6.00(61)]   (± is the standard uncertainty u)
+6.00, u = 0.61   (concise: 6.00(61))
 ";
     assert_eq!(out, expected);
     // The definitions were kept for recovery.
@@ -83,13 +83,13 @@ x*
 fn save_then_eval_gives_the_same_numbers_and_never_overwrites() {
     let dir = scratch("shell2");
     let (code, out) = session(
-        "a = 10.0 ± 0.5 rectangular [mm] dof=8\nb = 2.5 ± 0.01 [mm]\nA = a*b [mm^2]\nsave area.toml\nsave area.toml\nquit\n",
+        "a = 10.0 rectangular a=0.5 [mm] dof=8\nb = 2.5 u=0.01 [mm]\nA = a*b [mm^2]\nsave area.toml\nsave area.toml\nquit\n",
         &dir.join("home"),
         &dir,
     );
     // The refused second save is an error of the script.
     assert_eq!(code, 1);
-    assert!(out.contains("A = 25.00 ± 0.73 mm^2"), "{out}");
+    assert!(out.contains("A = 25.00 mm^2, u(A) = 0.73 mm^2"), "{out}");
     assert!(out.contains("saved to area.toml"));
     assert!(
         out.contains("error: area.toml exists; use save! area.toml to replace it"),
@@ -118,17 +118,20 @@ fn save_then_eval_gives_the_same_numbers_and_never_overwrites() {
         out2.starts_with("loaded 3 definitions from area.toml\n"),
         "{out2}"
     );
-    assert!(out2.contains("25.00 ± 0.73"), "{out2}");
+    assert!(
+        out2.contains("25.00 × 10⁻⁶ m^2, u = 0.73 × 10⁻⁶ m^2"),
+        "{out2}"
+    );
 }
 
 #[test]
 fn the_recovery_file_is_offered_to_the_next_session() {
     let dir = scratch("shell3");
     let home = dir.join("home");
-    session("x = 1.5 ± 0.1\n", &home, &dir); // ends at end of input
+    session("x = 1.5 u=0.1\n", &home, &dir); // ends at end of input
     let (_, out) = session("recover\nx*2\n", &home, &dir);
     assert!(out.contains("loaded 1 definitions"), "{out}");
-    assert!(out.contains("3.00 ± 0.20"), "{out}");
+    assert!(out.contains("3.00, u = 0.20"), "{out}");
 }
 
 #[test]
@@ -138,7 +141,7 @@ fn a_specification_in_the_shell() {
     // normal table, value recalled from memory).
     let dir = scratch("shell-spec");
     let (code, out) = session(
-        "x = 2.0 ± 0.1\ny = 3.0 +- 0.2\nq = x*y\n\
+        "x = 2.0 u=0.1\ny = 3.0 u=0.2\nq = x*y\n\
          specify q lower=5 upper=7 rule=guarded-acceptance guard=1\n\
          save spec.toml\nspecify q lower=7 upper=5\nspecify q off\nquit\n",
         &dir.join("home"),
@@ -213,8 +216,8 @@ fn load_keeps_the_settings_of_the_file() {
 fn the_shell_takes_every_name_a_model_file_takes() {
     let dir = scratch("shell_names");
     let (code, out) = session(
-        "α = 1.2e-5 ± 1e-6 [1/K]\nρ_w = 998.2 ± 0.05 [kg/m^3]\nΔT = 2.0 ± 0.1 [K]\n\
-         V0 = 10 ± 0.01 [mL]\nm = ρ_w*V0*(1 + α*ΔT) [g]\nsave names.toml\na.b = 3\n\
+        "α = 1.2e-5 u=1e-6 [1/K]\nρ_w = 998.2 u=0.05 [kg/m^3]\nΔT = 2.0 u=0.1 [K]\n\
+         V0 = 10 u=0.01 [mL]\nm = ρ_w*V0*(1 + α*ΔT) [g]\nsave names.toml\na.b = 3\n\
          k = ρ_v*2\nquit\n",
         &dir.join("home"),
         &dir,
@@ -252,7 +255,7 @@ fn an_empty_session_keeps_no_placeholder() {
     let (code, out) = session("list\nquit\n", &home, &dir);
     assert_eq!((code, out.as_str()), (0, "nothing is defined yet\n"));
     assert!(!home.join("recovery.toml").exists());
-    let (code, out) = session("x = 1.0 ± 0.1\nlist\nsave d.toml\n", &home, &dir);
+    let (code, out) = session("x = 1.0 u=0.1\nlist\nsave d.toml\n", &home, &dir);
     assert_eq!(code, 0, "{out}");
     assert!(!out.contains("_nothing"), "{out}");
     let saved = std::fs::read_to_string(dir.join("d.toml")).unwrap();
@@ -260,7 +263,7 @@ fn an_empty_session_keeps_no_placeholder() {
     let (code, out) = session("load d.toml\nx*3\n", &home, &dir);
     assert_eq!(code, 0, "{out}");
     assert!(out.contains("loaded 1 definitions"), "{out}");
-    assert!(out.contains("3.00 ± 0.30"), "{out}");
+    assert!(out.contains("3.00, u = 0.30"), "{out}");
 }
 
 /// A long session does not slow down with its length: every statement is
@@ -272,10 +275,10 @@ fn a_long_session_runs_to_its_end() {
     let dir = scratch("shell_long");
     let mut script = String::new();
     for i in 0..5000usize {
-        script.push_str(&format!("x{i} = {}.0 ± 0.01\n", i + 1));
+        script.push_str(&format!("x{i} = {}.0 u=0.01\n", i + 1));
         script.push_str(&format!("y{i} = 2*x{i} + x{}\n", i.saturating_sub(1)));
     }
-    script.push_str("x0 = 1.0 ± 0.02\ny1\ncorrelate x0 x1 0.5\ny1\n");
+    script.push_str("x0 = 1.0 u=0.02\ny1\ncorrelate x0 x1 0.5\ny1\n");
     let (code, out) = session(&script, &dir.join("home"), &dir);
     assert_eq!(code, 0);
     let lines: Vec<&str> = out.lines().collect();
@@ -283,12 +286,12 @@ fn a_long_session_runs_to_its_end() {
     // y1 = 2 x1 + x0 = 5; u² = (2·0.01)² + 0.02² → 0.028; with r = 0.5,
     // + 2·2·1·0.5·0.01·0.02 = 0.0004 → u = √0.0012 = 0.035.
     assert!(
-        lines[10_001].starts_with("5.000 ± 0.028"),
+        lines[10_001].starts_with("5.000, u = 0.028"),
         "{}",
         lines[10_001]
     );
     assert!(
-        lines[10_003].starts_with("5.000 ± 0.035"),
+        lines[10_003].starts_with("5.000, u = 0.035"),
         "{}",
         lines[10_003]
     );

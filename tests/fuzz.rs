@@ -120,6 +120,8 @@ fn dictionary(target: &str) -> &'static [&'static str] {
             "y = ",
             " ± ",
             " +- ",
+            " u=",
+            " a=",
             "(5)",
             " (k=2)",
             " rectangular",

@@ -500,7 +500,7 @@ pub fn fit_text(title: &str, f: &incertus_fit::FitResult) -> String {
             .iter()
             .map(|p| {
                 format!(
-                    "{} = {} ± {}",
+                    "{} = {} (u = {})",
                     p.name,
                     significant(p.value, 8),
                     significant(p.standard_uncertainty, 5)

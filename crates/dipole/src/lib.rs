@@ -365,8 +365,8 @@ pub fn build(p: &Problem) -> Result<Checked, DipoleError> {
             / (c0.standard_uncertainty.powi(2) + e1.standard_uncertainty.powi(2)).sqrt();
         if z > 2.0 {
             warnings.push(format!(
-                "the fitted intercept of ε12 at w2 = 0 ({:.5} ± {:.5}) differs from the stated solvent permittivity \
-                 ({} ± {}) by {:.1} combined standard uncertainties",
+                "the fitted intercept of ε12 at w2 = 0 ({:.5}, u = {:.5}) differs from the stated solvent \
+                 permittivity ({}, u = {}) by {:.1} combined standard uncertainties",
                 c0.value, c0.standard_uncertainty, e1.value, e1.standard_uncertainty, z
             ));
         }
@@ -388,7 +388,7 @@ pub fn build(p: &Problem) -> Result<Checked, DipoleError> {
                 let c2 = &q.parameters[2];
                 if c2.value.abs() > 3.0 * c2.standard_uncertainty {
                     warnings.push(format!(
-                        "the {name} series is curved (quadratic coefficient {:.3} ± {:.3}): the limiting gradient of a \
+                        "the {name} series is curved (quadratic coefficient {:.3}, u = {:.3}): the limiting gradient of a \
                          straight line may be biased; consider lower weight fractions",
                         c2.value, c2.standard_uncertainty
                     ));

@@ -40,11 +40,11 @@ pub mod coverage;
 pub mod description;
 pub mod dimensions;
 pub mod distributions;
+pub mod estimate;
 pub mod limits;
 mod load;
 pub mod matrix;
 pub mod model;
-pub mod number;
 pub mod offsets;
 pub mod propagate;
 pub mod rounding;
@@ -66,7 +66,7 @@ pub enum Error {
     Propagation(#[from] PropagationError),
     /// A tracked quantity asked of the wrong session.
     #[error(transparent)]
-    Session(#[from] number::SessionError),
+    Session(#[from] estimate::SessionError),
     /// A conformity assessment.
     #[error(transparent)]
     Conformity(#[from] conformity::ConformityError),

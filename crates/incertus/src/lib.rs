@@ -98,3 +98,10 @@ through!(
     gum::PropagationError => gum::Error,
     gum::conformity::ConformityError => gum::Error,
 );
+
+/// The README's Rust examples, compiled and run as doc tests
+/// (`cargo test --doc -p incertus`), so the README cannot drift from the
+/// library.
+#[cfg(doctest)]
+#[doc = include_str!("../../../README.md")]
+pub struct ReadmeExamples;

@@ -1,15 +1,15 @@
-//! `incertus shell`: typing formulas and uncertain values at a prompt.
+//! `incertus shell`: typing input quantities and formulas at a prompt.
 //!
 //! Statements, one per line (`#` starts a comment):
 //!
 //! ```text
-//! x = 2.0 ± 0.1            standard uncertainty (also +-)
+//! x = 2.0 u=0.1            an estimate and its standard uncertainty u
 //! x = 1.234(5)             concise notation (JCGM 100:2008, 7.2.2)
-//! x = 10.0 ± 0.5 (k=2)     expanded uncertainty with its coverage factor
-//! x = 10.0 ± 0.5 rectangular [mm] dof=8
-//!                          a distribution with limits (± gives the
-//!                          half-width: rectangular, triangular, arcsine),
-//!                          a unit in brackets, degrees of freedom
+//! x = 10.0 ± 0.5 (k=2)     an expanded uncertainty with its coverage factor
+//! x = 10.0 rectangular a=0.5 [mm] dof=8
+//!                          a distribution with limits and its half-width a
+//!                          (rectangular, triangular, arcsine), a unit in
+//!                          brackets, degrees of freedom
 //! x = 3.5                  an exact value
 //! y = x^2 + 1              a result, printed at once
 //! A = a*b [mm^2]           a result reported in a unit
@@ -20,8 +20,9 @@
 //! [TRIALS]`, `correlate A B R`, `list`, `save FILE` (`save! FILE` to
 //! replace an existing file), `load FILE`, `recover`, `help`, `quit`.
 //!
-//! The definitions are kept as a model file and evaluated by the same
-//! loader and propagation as `incertus eval`, so `save` writes a file that
+//! `±` always means an expanded uncertainty, with its coverage factor
+//! (`statement.rs`). The definitions are kept as a model description and
+//! validated and propagated as `incertus eval` does, so `save` writes a file that
 //! `eval` reads with the same numbers. An error never ends the session or
 //! changes what was defined. On leaving (quit, end of input, Ctrl-C) the
 //! definitions are written to a recovery file, which a new session offers
@@ -31,17 +32,16 @@ use std::io::{BufRead, IsTerminal, Write};
 use std::path::{Path, PathBuf};
 
 use clap::Args;
-use incertus_gum::description::{
-    CentredShape, DofGiven, InputDescription, InputEvaluation, LimitShape, LimitsGiven,
-    MeasurandDescription, ModelDescription,
-};
+use incertus_gum::description::{InputDescription, MeasurandDescription, ModelDescription};
 use incertus_gum::rounding::write;
 use incertus_gum::Report;
 
 use crate::Failure;
 
 mod session;
+mod statement;
 use session::Session;
+use statement::parse_value;
 
 #[derive(Args, Debug)]
 pub struct ShellArgs {
@@ -66,188 +66,6 @@ fn is_name(s: &str) -> bool {
     incertus_gum::description::is_formula_name(s)
 }
 
-/// What may follow a value: `(k=2)`, `[unit]`, `dof=8`, a distribution.
-struct Modifiers {
-    k: Option<f64>,
-    dist: Option<&'static str>,
-    unit: Option<String>,
-    dof: Option<f64>,
-}
-
-/// The modifiers after a value; `None` when the text goes on as a formula.
-fn modifiers(mut rest: &str) -> Option<Result<Modifiers, String>> {
-    let mut k: Option<f64> = None;
-    let mut dist: Option<&'static str> = None;
-    let mut unit: Option<String> = None;
-    let mut dof: Option<f64> = None;
-    loop {
-        rest = rest.trim_start();
-        if rest.is_empty() {
-            break;
-        }
-        if let Some(r) = rest
-            .strip_prefix("(k=")
-            .or_else(|| rest.strip_prefix("(k ="))
-        {
-            let Some(close) = r.find(')') else {
-                return Some(Err("expected `)` after k=".into()));
-            };
-            match r[..close].trim().parse::<f64>() {
-                Ok(v) => k = Some(v),
-                Err(_) => return Some(Err("k must be a number".into())),
-            }
-            rest = &r[close + 1..];
-        } else if let Some(r) = rest.strip_prefix('[') {
-            let Some(close) = r.find(']') else {
-                return Some(Err("expected `]` after the unit".into()));
-            };
-            unit = Some(r[..close].trim().to_string());
-            rest = &r[close + 1..];
-        } else if let Some(r) = rest
-            .strip_prefix("dof=")
-            .or_else(|| rest.strip_prefix("dof ="))
-        {
-            let end = r
-                .trim_start()
-                .find(char::is_whitespace)
-                .unwrap_or(r.trim_start().len());
-            match r.trim_start()[..end].parse::<f64>() {
-                Ok(v) => dof = Some(v),
-                Err(_) => return Some(Err("dof must be a number".into())),
-            }
-            rest = &r.trim_start()[end..];
-        } else if let Some(d) = ["rectangular", "triangular", "arcsine"]
-            .iter()
-            .find(|d| rest.starts_with(**d))
-        {
-            dist = Some(d);
-            rest = &rest[d.len()..];
-        } else if rest.starts_with(['*', '/', '^', '+', '-', '(']) {
-            return None; // a formula such as 2 ± ... is not a value; treat as formula
-        } else {
-            return Some(Err(format!(
-                "cannot read `{rest}` after the value; write e.g. 2.0 ± 0.1 (k=2), 1.0 ± 0.5 rectangular, [mm], dof=8"
-            )));
-        }
-    }
-    Some(Ok(Modifiers { k, dist, unit, dof }))
-}
-
-/// Parse `VALUE ± U [modifiers]`, `VALUE(DIGITS) [modifiers]` or a plain
-/// number into an input called `name`; `None` when the text is not a value
-/// (then it is a formula).
-fn parse_value(name: &str, rhs: &str) -> Option<Result<InputDescription, String>> {
-    let s = rhs.trim();
-    let num_end = s
-        .char_indices()
-        .find(|(i, c)| {
-            !(c.is_ascii_digit()
-                || *c == '.'
-                || *c == 'e'
-                || *c == 'E'
-                || ((*c == '-' || *c == '+') && (*i == 0 || s[..*i].ends_with(['e', 'E']))))
-        })
-        .map_or(s.len(), |(i, _)| i);
-    let value: f64 = s[..num_end].parse().ok()?;
-    let rest = s[num_end..].trim_start();
-    let (u, rest): (Option<f64>, &str) = if let Some(r) =
-        rest.strip_prefix('±').or_else(|| rest.strip_prefix("+-"))
-    {
-        let r = r.trim_start();
-        let end = r
-            .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == 'e' || c == 'E' || c == '-'))
-            .unwrap_or(r.len());
-        match r[..end].parse::<f64>() {
-            Ok(v) => (Some(v), &r[end..]),
-            Err(_) => return Some(Err("expected a number after ±".into())),
-        }
-    } else if let Some(r) = rest.strip_prefix('(') {
-        // Concise notation: the digits in parentheses are the uncertainty
-        // in units of the last digit of the value.
-        let Some(close) = r.find(')') else {
-            return Some(Err(
-                "expected `)` after the digits of the uncertainty".into()
-            ));
-        };
-        let digits = &r[..close];
-        if digits.starts_with('k') {
-            return None;
-        }
-        let Ok(d) = digits.parse::<u64>() else {
-            return Some(Err(format!(
-                "`({digits})` is not concise notation: write digits, as in 1.234(5)"
-            )));
-        };
-        let mantissa = &s[..num_end];
-        let decimals = mantissa
-            .split(['e', 'E'])
-            .next()
-            .and_then(|m| m.split_once('.'))
-            .map_or(0, |(_, f)| f.len());
-        let exp: i32 = mantissa
-            .split_once(['e', 'E'])
-            .and_then(|(_, e)| e.parse().ok())
-            .unwrap_or(0);
-        (
-            Some(d as f64 * 10f64.powi(exp - decimals as i32)),
-            &r[close + 1..],
-        )
-    } else {
-        (None, rest)
-    };
-    let Modifiers { k, dist, unit, dof } = match modifiers(rest)? {
-        Ok(m) => m,
-        Err(e) => return Some(Err(e)),
-    };
-    let dof_given = dof.map(DofGiven::Dof);
-    let evaluation = match (u, k, dist) {
-        (None, None, None) => {
-            if dof.is_some() {
-                return Some(Err("an exact value has no degrees of freedom".into()));
-            }
-            InputEvaluation::Exact { value }
-        }
-        (Some(u), None, None) => InputEvaluation::Standard {
-            value,
-            standard_uncertainty: u,
-            dof: dof_given,
-            shape: CentredShape::Normal,
-        },
-        (Some(u), Some(k), None) => InputEvaluation::Expanded {
-            value,
-            expanded_uncertainty: u,
-            coverage_factor: k,
-            dof: dof_given,
-            shape: CentredShape::Normal,
-        },
-        (Some(a), None, Some(d)) => InputEvaluation::Limits {
-            limits: LimitsGiven::HalfWidth {
-                value,
-                half_width: a,
-            },
-            shape: match d {
-                "triangular" => LimitShape::Triangular,
-                "arcsine" => LimitShape::Arcsine,
-                _ => LimitShape::Rectangular,
-            },
-            dof: dof_given,
-        },
-        (None, _, _) => {
-            return Some(Err(
-                "give an uncertainty with ± before (k=...) or a distribution".into(),
-            ))
-        }
-        (Some(_), Some(_), Some(_)) => {
-            return Some(Err(
-                "(k=...) goes with an expanded uncertainty, not with a distribution".into(),
-            ))
-        }
-    };
-    let mut input = InputDescription::new(name, evaluation);
-    input.unit = unit;
-    Some(Ok(input))
-}
-
 fn show(name: &str, value: f64, u: f64, unit: Option<&str>) -> String {
     let unit = unit.map(|u| format!(" {u}")).unwrap_or_default();
     if u == 0.0 {
@@ -257,9 +75,16 @@ fn show(name: &str, value: f64, u: f64, unit: Option<&str>) -> String {
         );
     }
     let w = write(value, u, 2);
+    let (lhs, u_of) = if name.is_empty() {
+        (String::new(), "u".to_string())
+    } else {
+        (format!("{name} = "), format!("u({name})"))
+    };
     format!(
-        "{name} = {}{unit}   [{}]   (± is the standard uncertainty u)",
-        w.plus_minus, w.concise
+        "{lhs}{}{unit}, {u_of} = {}{unit}   (concise: {}{unit})",
+        w.with_power(&w.value),
+        w.with_power(&w.uncertainty),
+        w.concise
     )
 }
 
@@ -294,11 +119,13 @@ struct Shell {
 }
 
 const HELP: &str = "statements:
-  x = 2.0 ± 0.1               an input with its standard uncertainty (also +-)
-  x = 1.234(5)                concise notation
-  x = 10.0 ± 0.5 (k=2)        an expanded uncertainty and its coverage factor
-  x = 1.0 ± 0.5 rectangular   limits (also triangular, arcsine); add [unit] and dof=N
+  x = 2.0 u=0.1               an input with its standard uncertainty u
+  x = 1.234(5)                concise notation: u = 0.005 (JCGM 100:2008, 7.2.2)
+  x = 10.0 ± 0.5 (k=2)        an expanded uncertainty U and its coverage factor: u = U/k
+  x = 1.0 rectangular a=0.5   limits with the half-width a (also triangular, arcsine)
+                              after any of these: [unit] and dof=N
   x = 3.5                     an exact value
+  ± always means an expanded uncertainty and needs (k=...)
   y = formula                 a result, printed at once (y = formula [unit] to report in a unit)
   formula                     its value and uncertainty
 commands:
@@ -656,10 +483,11 @@ impl Shell {
                 let m = &mc.results[j];
                 let w = write(m.value, m.standard_uncertainty, 2);
                 self.say(format!(
-                    "{name}: {} trials, seed {}: {} (± is u); {} % interval [{}, {}] (probabilistically symmetric), [{}, {}] (shortest); first-order result {}",
+                    "{name}: {} trials, seed {}: {}, u = {}; {} % interval [{}, {}] (probabilistically symmetric), [{}, {}] (shortest); first-order result {}",
                     m.trials,
                     m.seed,
-                    w.plus_minus,
+                    w.with_power(&w.value),
+                    w.with_power(&w.uncertainty),
                     incertus_gum::rounding::significant(100.0 * m.coverage_probability, 6),
                     incertus_gum::rounding::significant(m.symmetric_interval[0], 6),
                     incertus_gum::rounding::significant(m.symmetric_interval[1], 6),

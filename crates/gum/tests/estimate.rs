@@ -3,7 +3,7 @@
 //! correlation), on random formulas.
 
 use incertus_expr::parse;
-use incertus_gum::number::{eval_expr, Session, Uncertain};
+use incertus_gum::estimate::{eval_expr, Estimate, Session};
 use incertus_gum::{load_str, propagate, Options};
 use proptest::prelude::*;
 
@@ -58,7 +58,7 @@ proptest! {
         let y = s.input("y", -1.3, 0.1);
         let z = s.input("z", 2.1, 0.02);
         s.correlate(&x, &y, r).unwrap();
-        let env = |n: &str| -> Option<Uncertain> {
+        let env = |n: &str| -> Option<Estimate> {
             match n { "x" => Some(x.clone()), "y" => Some(y.clone()), "z" => Some(z.clone()), _ => None }
         };
         let q = eval_expr(&parse(&f).unwrap(), &env).unwrap();
@@ -94,7 +94,7 @@ fn shared_inputs_correlate_results_and_cancel_exactly() {
 #[test]
 fn numbers_of_another_session_are_refused() {
     // common practice, no published source: an uncertainty is a property of a session's inputs.
-    use incertus_gum::number::SessionError;
+    use incertus_gum::estimate::SessionError;
     let mut a = Session::new();
     let mut b = Session::new();
     let x = a.input("x", 2.0, 0.1);

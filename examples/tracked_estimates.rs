@@ -1,9 +1,9 @@
-//! Uncertain numbers in Rust code: arithmetic that keeps track of the
+//! Tracked estimates in Rust code: arithmetic that keeps track of the
 //! inputs and their correlation (invented demonstration values).
 //!
-//! Run: `cargo run --example uncertain_numbers`
+//! Run: `cargo run --example tracked_estimates`
 
-use incertus::gum::number::Session;
+use incertus::gum::estimate::Session;
 
 fn main() {
     let mut s = Session::new();
@@ -15,7 +15,7 @@ fn main() {
     let parallel = &(&r1 * &r2) / &series;
     for (name, y) in [("series", &series), ("parallel", &parallel)] {
         println!(
-            "{name:9} = {:.4} ± {:.4} ohm",
+            "{name:9} = {:.4} ohm, u = {:.4} ohm",
             y.value(),
             s.standard_uncertainty(y).expect("one session")
         );
@@ -34,7 +34,7 @@ fn main() {
     let again = &r2 + &r1;
     let zero = &series - &again;
     println!(
-        "series - (R2 + R1) = {} ± {}",
+        "series - (R2 + R1) = {}, u = {}",
         zero.value(),
         s.standard_uncertainty(&zero).expect("one session")
     );

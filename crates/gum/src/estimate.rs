@@ -1,4 +1,4 @@
-//! Uncertain numbers for embedding: a value with a sparse gradient over the
+//! Tracked estimates for embedding: a value with a sparse gradient over the
 //! named base inputs of a [`Session`], so that arithmetic keeps track of
 //! which inputs a result depends on and how strongly (first-order
 //! propagation, JCGM 100:2008, 5.1 and 5.2). Two results computed from the
@@ -6,7 +6,7 @@
 //! with zero uncertainty.
 //!
 //! ```
-//! use incertus_gum::number::Session;
+//! use incertus_gum::estimate::Session;
 //! let mut s = Session::new();
 //! let x = s.input("x", 2.0, 0.1);
 //! let y = s.input("y", 3.0, 0.2);
@@ -44,7 +44,7 @@ struct Grad {
 
 /// A value and its sensitivity coefficients to the base inputs.
 #[derive(Clone, Debug, PartialEq)]
-pub struct Uncertain {
+pub struct Estimate {
     value: f64,
     grad: Grad,
 }
@@ -54,11 +54,11 @@ pub struct Uncertain {
 #[non_exhaustive]
 pub enum SessionError {
     /// The number was made from the inputs of another session.
-    #[error("this uncertain number was made from the inputs of another session; ask that session")]
+    #[error("this tracked estimate was made from the inputs of another session; ask that session")]
     OtherSession,
     /// The number combines inputs of two or more sessions.
     #[error(
-        "this uncertain number combines inputs of different sessions, so its uncertainty is not defined; \
+        "this tracked estimate combines inputs of different sessions, so its uncertainty is not defined; \
          make every input of a calculation in one session"
     )]
     MixedSessions,
@@ -95,7 +95,7 @@ impl Default for Session {
     }
 }
 
-/// One line of the budget of an uncertain number.
+/// One line of the budget of a tracked estimate.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Line {
     /// The base input.
@@ -117,12 +117,12 @@ impl Session {
     }
 
     /// A new base input with infinite dof.
-    pub fn input(&mut self, name: &str, value: f64, u: f64) -> Uncertain {
+    pub fn input(&mut self, name: &str, value: f64, u: f64) -> Estimate {
         self.input_with_dof(name, value, u, None)
     }
 
     /// A new base input with the given degrees of freedom.
-    pub fn input_with_dof(&mut self, name: &str, value: f64, u: f64, dof: Dof) -> Uncertain {
+    pub fn input_with_dof(&mut self, name: &str, value: f64, u: f64, dof: Dof) -> Estimate {
         let i = self.inputs.len();
         self.inputs.push(BaseInput {
             name: name.to_string(),
@@ -130,7 +130,7 @@ impl Session {
             standard_uncertainty: u.abs(),
             dof,
         });
-        Uncertain {
+        Estimate {
             value,
             grad: Grad {
                 session: self.id,
@@ -146,7 +146,7 @@ impl Session {
 
     /// Whether `y` may be asked about here: made from this session's inputs
     /// (or from none).
-    fn owns(&self, y: &Uncertain) -> Result<(), SessionError> {
+    fn owns(&self, y: &Estimate) -> Result<(), SessionError> {
         match y.grad.session {
             0 => Ok(()),
             MIXED => Err(SessionError::MixedSessions),
@@ -157,10 +157,10 @@ impl Session {
 
     /// Set the correlation coefficient of two base inputs (each must be an
     /// input itself, not a result).
-    pub fn correlate(&mut self, a: &Uncertain, b: &Uncertain, r: f64) -> Result<(), String> {
+    pub fn correlate(&mut self, a: &Estimate, b: &Estimate, r: f64) -> Result<(), String> {
         self.owns(a).map_err(|e| e.to_string())?;
         self.owns(b).map_err(|e| e.to_string())?;
-        let one = |x: &Uncertain| match x.grad.terms.as_slice() {
+        let one = |x: &Estimate| match x.grad.terms.as_slice() {
             [(i, c)] if *c == 1.0 && x.value == self.inputs[*i].value => Some(*i),
             _ => None,
         };
@@ -192,12 +192,12 @@ impl Session {
     }
 
     /// u(y) = √(cᵀ V c) over the base inputs.
-    pub fn standard_uncertainty(&self, y: &Uncertain) -> Result<f64, SessionError> {
+    pub fn standard_uncertainty(&self, y: &Estimate) -> Result<f64, SessionError> {
         Ok(self.covariance(y, y)?.max(0.0).sqrt())
     }
 
     /// u(y, z) = c_yᵀ V c_z: results sharing inputs are correlated.
-    pub fn covariance(&self, y: &Uncertain, z: &Uncertain) -> Result<f64, SessionError> {
+    pub fn covariance(&self, y: &Estimate, z: &Estimate) -> Result<f64, SessionError> {
         self.owns(y)?;
         self.owns(z)?;
         let mut s = 0.0;
@@ -217,7 +217,7 @@ impl Session {
     }
 
     /// Correlation coefficient of two results.
-    pub fn correlation(&self, y: &Uncertain, z: &Uncertain) -> Result<f64, SessionError> {
+    pub fn correlation(&self, y: &Estimate, z: &Estimate) -> Result<f64, SessionError> {
         let (a, b) = (self.standard_uncertainty(y)?, self.standard_uncertainty(z)?);
         Ok(if a == 0.0 || b == 0.0 {
             0.0
@@ -227,7 +227,7 @@ impl Session {
     }
 
     /// The budget: one line per base input the result depends on.
-    pub fn budget(&self, y: &Uncertain) -> Result<Vec<Line>, SessionError> {
+    pub fn budget(&self, y: &Estimate) -> Result<Vec<Line>, SessionError> {
         self.owns(y)?;
         Ok(y.grad
             .terms
@@ -249,7 +249,7 @@ impl Session {
     /// G.4.1), generalised to the correlations of the session by the same
     /// rule as `propagate` (`coverage::effective_dof_correlated`; each base
     /// input is its own block).
-    pub fn effective_dof(&self, y: &Uncertain) -> Result<Dof, SessionError> {
+    pub fn effective_dof(&self, y: &Estimate) -> Result<Dof, SessionError> {
         self.owns(y)?;
         let idx: Vec<usize> = y.grad.terms.iter().map(|t| t.0).collect();
         let w: Vec<f64> = y
@@ -311,10 +311,10 @@ fn merge(ga: &Grad, ka: f64, gb: &Grad, kb: f64) -> Grad {
     }
 }
 
-impl Uncertain {
+impl Estimate {
     /// An exact number.
-    pub fn exact(value: f64) -> Uncertain {
-        Uncertain {
+    pub fn exact(value: f64) -> Estimate {
+        Estimate {
             value,
             grad: Grad::default(),
         }
@@ -335,8 +335,8 @@ impl Uncertain {
     }
 
     /// Apply a function of one argument with derivative `d` at the value.
-    fn chain(&self, value: f64, d: f64) -> Uncertain {
-        Uncertain {
+    fn chain(&self, value: f64, d: f64) -> Estimate {
+        Estimate {
             value,
             grad: Grad {
                 session: self.grad.session,
@@ -354,102 +354,102 @@ impl Uncertain {
     }
 
     /// √x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn sqrt(&self) -> Uncertain {
+    pub fn sqrt(&self) -> Estimate {
         let s = self.value.sqrt();
         self.chain(s, 0.5 / s)
     }
     /// ∛x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn cbrt(&self) -> Uncertain {
+    pub fn cbrt(&self) -> Estimate {
         let s = self.value.cbrt();
         self.chain(s, 1.0 / (3.0 * s * s))
     }
     /// eˣ, with the sensitivity to every base input carried through (the chain rule).
-    pub fn exp(&self) -> Uncertain {
+    pub fn exp(&self) -> Estimate {
         let e = self.value.exp();
         self.chain(e, e)
     }
     /// ln x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn ln(&self) -> Uncertain {
+    pub fn ln(&self) -> Estimate {
         self.chain(self.value.ln(), 1.0 / self.value)
     }
     /// log₁₀ x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn log10(&self) -> Uncertain {
+    pub fn log10(&self) -> Estimate {
         self.chain(
             self.value.log10(),
             1.0 / (self.value * std::f64::consts::LN_10),
         )
     }
     /// log₂ x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn log2(&self) -> Uncertain {
+    pub fn log2(&self) -> Estimate {
         self.chain(
             self.value.log2(),
             1.0 / (self.value * std::f64::consts::LN_2),
         )
     }
     /// sin x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn sin(&self) -> Uncertain {
+    pub fn sin(&self) -> Estimate {
         self.chain(self.value.sin(), self.value.cos())
     }
     /// cos x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn cos(&self) -> Uncertain {
+    pub fn cos(&self) -> Estimate {
         self.chain(self.value.cos(), -self.value.sin())
     }
     /// tan x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn tan(&self) -> Uncertain {
+    pub fn tan(&self) -> Estimate {
         let c = self.value.cos();
         self.chain(self.value.tan(), 1.0 / (c * c))
     }
     /// asin x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn asin(&self) -> Uncertain {
+    pub fn asin(&self) -> Estimate {
         self.chain(
             self.value.asin(),
             1.0 / (1.0 - self.value * self.value).sqrt(),
         )
     }
     /// acos x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn acos(&self) -> Uncertain {
+    pub fn acos(&self) -> Estimate {
         self.chain(
             self.value.acos(),
             -1.0 / (1.0 - self.value * self.value).sqrt(),
         )
     }
     /// atan x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn atan(&self) -> Uncertain {
+    pub fn atan(&self) -> Estimate {
         self.chain(self.value.atan(), 1.0 / (1.0 + self.value * self.value))
     }
     /// sinh x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn sinh(&self) -> Uncertain {
+    pub fn sinh(&self) -> Estimate {
         self.chain(self.value.sinh(), self.value.cosh())
     }
     /// cosh x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn cosh(&self) -> Uncertain {
+    pub fn cosh(&self) -> Estimate {
         self.chain(self.value.cosh(), self.value.sinh())
     }
     /// tanh x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn tanh(&self) -> Uncertain {
+    pub fn tanh(&self) -> Estimate {
         let c = self.value.cosh();
         self.chain(self.value.tanh(), 1.0 / (c * c))
     }
     /// asinh x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn asinh(&self) -> Uncertain {
+    pub fn asinh(&self) -> Estimate {
         self.chain(
             self.value.asinh(),
             1.0 / (self.value * self.value + 1.0).sqrt(),
         )
     }
     /// acosh x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn acosh(&self) -> Uncertain {
+    pub fn acosh(&self) -> Estimate {
         self.chain(
             self.value.acosh(),
             1.0 / (self.value * self.value - 1.0).sqrt(),
         )
     }
     /// atanh x, with the sensitivity to every base input carried through (the chain rule).
-    pub fn atanh(&self) -> Uncertain {
+    pub fn atanh(&self) -> Estimate {
         self.chain(self.value.atanh(), 1.0 / (1.0 - self.value * self.value))
     }
     /// |x|, with the sensitivity to every base input carried through (the chain rule).
-    pub fn abs(&self) -> Uncertain {
+    pub fn abs(&self) -> Estimate {
         self.chain(
             self.value.abs(),
             if self.value > 0.0 {
@@ -462,8 +462,8 @@ impl Uncertain {
         )
     }
     /// sign x (zero derivative), with the sensitivity to every base input carried through (the chain rule).
-    pub fn sign(&self) -> Uncertain {
-        Uncertain::exact(if self.value > 0.0 {
+    pub fn sign(&self) -> Estimate {
+        Estimate::exact(if self.value > 0.0 {
             1.0
         } else if self.value < 0.0 {
             -1.0
@@ -472,7 +472,7 @@ impl Uncertain {
         })
     }
     /// Integer power (x·x for 2, as the formula engine does).
-    pub fn powi(&self, n: i32) -> Uncertain {
+    pub fn powi(&self, n: i32) -> Estimate {
         let v = if n == 2 {
             self.value * self.value
         } else {
@@ -481,7 +481,7 @@ impl Uncertain {
         self.chain(v, n as f64 * self.value.powi(n - 1))
     }
     /// A power with an uncertain exponent: d(a^b) = b a^(b−1) da + a^b ln(a) db.
-    pub fn pow(&self, e: &Uncertain) -> Uncertain {
+    pub fn pow(&self, e: &Estimate) -> Estimate {
         let v = self.value.powf(e.value);
         let da = e.value * self.value.powf(e.value - 1.0);
         let db = if e.grad.terms.is_empty() {
@@ -489,101 +489,101 @@ impl Uncertain {
         } else {
             v * self.value.ln()
         };
-        Uncertain {
+        Estimate {
             value: v,
             grad: merge(&self.grad, da, &e.grad, db),
         }
     }
     /// atan2(self, x), the angle of the point (x, self), with sensitivities.
-    pub fn atan2(&self, x: &Uncertain) -> Uncertain {
+    pub fn atan2(&self, x: &Estimate) -> Estimate {
         let r2 = self.value * self.value + x.value * x.value;
-        Uncertain {
+        Estimate {
             value: self.value.atan2(x.value),
             grad: merge(&self.grad, x.value / r2, &x.grad, -self.value / r2),
         }
     }
     /// hypot(self, b) = √(self² + b²), with sensitivities.
-    pub fn hypot(&self, b: &Uncertain) -> Uncertain {
+    pub fn hypot(&self, b: &Estimate) -> Estimate {
         let h = self.value.hypot(b.value);
-        Uncertain {
+        Estimate {
             value: h,
             grad: merge(&self.grad, self.value / h, &b.grad, b.value / h),
         }
     }
 }
 
-impl From<f64> for Uncertain {
+impl From<f64> for Estimate {
     fn from(v: f64) -> Self {
-        Uncertain::exact(v)
+        Estimate::exact(v)
     }
 }
 
 macro_rules! binop {
     ($tr:ident, $m:ident, $f:expr) => {
-        impl $tr<&Uncertain> for &Uncertain {
-            type Output = Uncertain;
-            fn $m(self, o: &Uncertain) -> Uncertain {
+        impl $tr<&Estimate> for &Estimate {
+            type Output = Estimate;
+            fn $m(self, o: &Estimate) -> Estimate {
                 $f(self, o)
             }
         }
-        impl $tr<Uncertain> for Uncertain {
-            type Output = Uncertain;
-            fn $m(self, o: Uncertain) -> Uncertain {
+        impl $tr<Estimate> for Estimate {
+            type Output = Estimate;
+            fn $m(self, o: Estimate) -> Estimate {
                 $f(&self, &o)
             }
         }
-        impl $tr<&Uncertain> for Uncertain {
-            type Output = Uncertain;
-            fn $m(self, o: &Uncertain) -> Uncertain {
+        impl $tr<&Estimate> for Estimate {
+            type Output = Estimate;
+            fn $m(self, o: &Estimate) -> Estimate {
                 $f(&self, o)
             }
         }
-        impl $tr<Uncertain> for &Uncertain {
-            type Output = Uncertain;
-            fn $m(self, o: Uncertain) -> Uncertain {
+        impl $tr<Estimate> for &Estimate {
+            type Output = Estimate;
+            fn $m(self, o: Estimate) -> Estimate {
                 $f(self, &o)
             }
         }
-        impl $tr<f64> for Uncertain {
-            type Output = Uncertain;
-            fn $m(self, o: f64) -> Uncertain {
-                $f(&self, &Uncertain::exact(o))
+        impl $tr<f64> for Estimate {
+            type Output = Estimate;
+            fn $m(self, o: f64) -> Estimate {
+                $f(&self, &Estimate::exact(o))
             }
         }
-        impl $tr<f64> for &Uncertain {
-            type Output = Uncertain;
-            fn $m(self, o: f64) -> Uncertain {
-                $f(self, &Uncertain::exact(o))
+        impl $tr<f64> for &Estimate {
+            type Output = Estimate;
+            fn $m(self, o: f64) -> Estimate {
+                $f(self, &Estimate::exact(o))
             }
         }
-        impl $tr<Uncertain> for f64 {
-            type Output = Uncertain;
-            fn $m(self, o: Uncertain) -> Uncertain {
-                $f(&Uncertain::exact(self), &o)
+        impl $tr<Estimate> for f64 {
+            type Output = Estimate;
+            fn $m(self, o: Estimate) -> Estimate {
+                $f(&Estimate::exact(self), &o)
             }
         }
-        impl $tr<&Uncertain> for f64 {
-            type Output = Uncertain;
-            fn $m(self, o: &Uncertain) -> Uncertain {
-                $f(&Uncertain::exact(self), o)
+        impl $tr<&Estimate> for f64 {
+            type Output = Estimate;
+            fn $m(self, o: &Estimate) -> Estimate {
+                $f(&Estimate::exact(self), o)
             }
         }
     };
 }
 
-binop!(Add, add, |a: &Uncertain, b: &Uncertain| Uncertain {
+binop!(Add, add, |a: &Estimate, b: &Estimate| Estimate {
     value: a.value + b.value,
     grad: merge(&a.grad, 1.0, &b.grad, 1.0)
 });
-binop!(Sub, sub, |a: &Uncertain, b: &Uncertain| Uncertain {
+binop!(Sub, sub, |a: &Estimate, b: &Estimate| Estimate {
     value: a.value - b.value,
     grad: merge(&a.grad, 1.0, &b.grad, -1.0)
 });
-binop!(Mul, mul, |a: &Uncertain, b: &Uncertain| Uncertain {
+binop!(Mul, mul, |a: &Estimate, b: &Estimate| Estimate {
     value: a.value * b.value,
     grad: merge(&a.grad, b.value, &b.grad, a.value)
 });
-binop!(Div, div, |a: &Uncertain, b: &Uncertain| Uncertain {
+binop!(Div, div, |a: &Estimate, b: &Estimate| Estimate {
     value: a.value / b.value,
     grad: merge(
         &a.grad,
@@ -593,36 +593,36 @@ binop!(Div, div, |a: &Uncertain, b: &Uncertain| Uncertain {
     )
 });
 
-impl Neg for Uncertain {
-    type Output = Uncertain;
-    fn neg(self) -> Uncertain {
+impl Neg for Estimate {
+    type Output = Estimate;
+    fn neg(self) -> Estimate {
         self.chain(-self.value, -1.0)
     }
 }
 
-impl Neg for &Uncertain {
-    type Output = Uncertain;
-    fn neg(self) -> Uncertain {
+impl Neg for &Estimate {
+    type Output = Estimate;
+    fn neg(self) -> Estimate {
         self.chain(-self.value, -1.0)
     }
 }
 
-/// Evaluate a formula of the expression language on uncertain numbers.
+/// Evaluate a formula of the expression language on tracked estimates.
 pub fn eval_expr(
     e: &incertus_expr::Expr,
-    env: &dyn Fn(&str) -> Option<Uncertain>,
-) -> Result<Uncertain, incertus_expr::FormulaError> {
+    env: &dyn Fn(&str) -> Option<Estimate>,
+) -> Result<Estimate, incertus_expr::FormulaError> {
     use incertus_expr::{ErrorKind, FormulaError, Func, Kind};
     let domain = |what: &str| FormulaError::new(ErrorKind::Domain, what.to_string(), e.span);
     let v = match &e.kind {
-        Kind::Num(v) => Uncertain::exact(*v),
-        Kind::Pi => Uncertain::exact(std::f64::consts::PI),
+        Kind::Num(v) => Estimate::exact(*v),
+        Kind::Pi => Estimate::exact(std::f64::consts::PI),
         Kind::Var(n) => env(n).ok_or_else(|| {
             FormulaError::new(ErrorKind::Name, format!("`{n}` is not defined"), e.span)
         })?,
         Kind::Neg(a) => -eval_expr(a, env)?,
         Kind::Sum(ts) => {
-            let mut acc: Option<Uncertain> = None;
+            let mut acc: Option<Estimate> = None;
             for t in ts {
                 let v = eval_expr(&t.expr, env)?;
                 acc = Some(match (acc, t.negative) {
@@ -635,7 +635,7 @@ pub fn eval_expr(
             acc.expect("a sum has terms")
         }
         Kind::Product(fs) => {
-            let mut acc: Option<Uncertain> = None;
+            let mut acc: Option<Estimate> = None;
             for f in fs {
                 let v = eval_expr(&f.expr, env)?;
                 if f.divide && v.value == 0.0 {
@@ -703,8 +703,8 @@ pub fn eval_expr(
 fn pow_node(
     b: &incertus_expr::Expr,
     x: &incertus_expr::Expr,
-    env: &dyn Fn(&str) -> Option<Uncertain>,
-) -> Result<Uncertain, incertus_expr::FormulaError> {
+    env: &dyn Fn(&str) -> Option<Estimate>,
+) -> Result<Estimate, incertus_expr::FormulaError> {
     let base = eval_expr(b, env)?;
     if let Some(n) = incertus_expr::func::literal_integer(x) {
         return Ok(base.powi(n));
