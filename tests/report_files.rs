@@ -225,3 +225,39 @@ fn the_report_renders_in_a_real_browser() {
             .unwrap_or("none")
     );
 }
+
+/// Markdown and HTML print units as the SI Brochure does (9th ed., 5.4:
+/// powers as superscripts, °C); text, CSV and JSON keep them as written.
+/// A model without a title is titled by its file name.
+#[test]
+fn units_as_the_si_brochure_prints_them_and_a_default_title() {
+    let dir = scratch("si_units").join("report");
+    let (code, text, err) = incertus(&[
+        "eval",
+        "examples/models/vessel.toml",
+        "--report",
+        dir.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(text.contains("mm^3"), "{text}");
+    let html = read(&dir.join("report.html"));
+    let md = read(&dir.join("report.md"));
+    for (what, t) in [("html", &html), ("md", &md)] {
+        assert!(t.contains("× 10⁶ mm³"), "{what}");
+        assert!(t.contains("°C"), "{what}");
+        assert!(!t.contains("mm^3"), "{what}");
+    }
+    let json = read(&dir.join("result.json"));
+    assert!(json.contains("\"mm^3\""), "JSON keeps the unit as written");
+
+    let untitled = scratch("untitled").join("no_title.toml");
+    std::fs::write(
+        &untitled,
+        "[inputs.x]\nvalue = 1.0\nstandard_uncertainty = 0.1\n\
+         [[measurands]]\nname = \"y\"\nformula = \"2*x\"\n",
+    )
+    .unwrap();
+    let (code, out, err) = incertus(&["eval", untitled.to_str().unwrap()]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.starts_with("no_title.toml\n============="), "{out}");
+}

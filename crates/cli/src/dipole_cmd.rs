@@ -71,7 +71,7 @@ fn solve(
     let style = Style { digits: 2 };
     let text = match format {
         Format::Text => report::text(&rep, style, mc.as_ref()),
-        Format::Markdown => report::markdown(&rep, style, mc.as_ref()),
+        Format::Markdown => report::markdown(&report::with_si_units(&rep), style, mc.as_ref()),
         Format::Json => report::json(&rep, mc.as_ref()),
         Format::Csv => report::csv(&rep),
     };

@@ -149,7 +149,7 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let style = Style { digits: a.digits };
     let text = match a.format {
         Format::Text => report::text(&report, style, mc.as_ref()),
-        Format::Markdown => report::markdown(&report, style, mc.as_ref()),
+        Format::Markdown => report::markdown(&report::with_si_units(&report), style, mc.as_ref()),
         Format::Json => report::json(&report, mc.as_ref()),
         Format::Csv => report::csv(&report),
     };

@@ -652,8 +652,10 @@ pub fn write_report(
         drawn: plots,
         not_drawn,
     } = plots(report, mc, extra_fits);
-    let text = report::text(report, style, mc);
-    let md = report::markdown(report, style, mc);
+    // Markdown and HTML print units as the SI Brochure does (mm³, °C, µL).
+    let si = report::with_si_units(report);
+    let text = report::text(&si, style, mc);
+    let md = report::markdown(&si, style, mc);
     let json = report::json(report, mc);
     let csv = report::csv(report);
     let title = report

@@ -50,7 +50,7 @@ enum Command {
     Check(eval_cmd::CheckArgs),
     /// Fit a straight line or polynomial to columns of a CSV file by least squares, with diagnostics
     Fit(fit_cmd::FitArgs),
-    /// Type uncertain values and formulas at a prompt (or pipe statements in)
+    /// Type input quantities and formulas at a prompt (or pipe statements in)
     Shell(shell::ShellArgs),
     /// Dipole moment from dilute-solution series (Guggenheim-Smith). Caution: organic solvents are
     /// flammable and many are toxic; follow the safety data sheets and local rules

@@ -143,6 +143,29 @@ fn aligned(rows: &[Vec<String>]) -> String {
     out
 }
 
+/// The same report with its units as the SI Brochure prints them (`mm³`,
+/// `°C`, `µL`; `incertus_units::si_symbols`), for Markdown and HTML; text,
+/// CSV and JSON keep the units as written.
+pub fn with_si_units(report: &Report) -> Report {
+    let si = |u: &mut Option<String>| {
+        if let Some(t) = u {
+            *t = incertus_units::si_symbols(t);
+        }
+    };
+    let mut r = report.clone();
+    for m in &mut r.results {
+        si(&mut m.unit);
+        for b in &mut m.budget {
+            si(&mut b.unit);
+        }
+    }
+    for f in &mut r.fits {
+        si(&mut f.x_unit);
+        si(&mut f.y_unit);
+    }
+    r
+}
+
 fn unit_suffix(r: &MeasurandResult) -> String {
     r.unit.as_ref().map(|u| format!(" {u}")).unwrap_or_default()
 }

@@ -304,6 +304,98 @@ fn lookup(sym: &str) -> Option<(Dimension, f64)> {
     None
 }
 
+/// A unit as the SI Brochure prints it: powers as superscripts (`mm^3` →
+/// `mm³`, `m^-1` → `m⁻¹`), `µ` for the micro prefix typed as `u` (`uL` →
+/// `µL`), `°C` for `degC`, `Ω` for `ohm`, `·` for `*`. Fractional powers
+/// (`^(1/2)`) and anything not a unit symbol are kept as written, and the
+/// result parses to the same unit.
+///
+/// ```
+/// assert_eq!(incertus_units::si_symbols("kg/m^3"), "kg/m³");
+/// assert_eq!(incertus_units::si_symbols("uL"), "µL");
+/// assert_eq!(incertus_units::si_symbols("J/(kg*degC)"), "J/(kg·°C)");
+/// ```
+pub fn si_symbols(text: &str) -> String {
+    let mut out = String::with_capacity(text.len() + 8);
+    let chars: Vec<char> = text.chars().collect();
+    let mut i = 0;
+    while i < chars.len() {
+        let c = chars[i];
+        if c.is_alphabetic() {
+            let start = i;
+            while i < chars.len() && (chars[i].is_alphabetic() || chars[i] == '_') {
+                i += 1;
+            }
+            let sym: String = chars[start..i].iter().collect();
+            out.push_str(&si_symbol(&sym));
+            continue;
+        }
+        let power_start = if c == '^' {
+            Some(i + 1)
+        } else if c == '*' && chars.get(i + 1) == Some(&'*') {
+            Some(i + 2)
+        } else {
+            None
+        };
+        if let Some(p) = power_start {
+            let mut j = p;
+            if matches!(chars.get(j), Some('-') | Some('+')) {
+                j += 1;
+            }
+            let digits_start = j;
+            while j < chars.len() && chars[j].is_ascii_digit() {
+                j += 1;
+            }
+            if j > digits_start {
+                for &d in &chars[p..j] {
+                    out.push(superscript(d));
+                }
+                i = j;
+                continue;
+            }
+        }
+        out.push(if c == '*' { '·' } else { c });
+        i += 1;
+    }
+    out
+}
+
+fn superscript(c: char) -> char {
+    match c {
+        '0' => '⁰',
+        '1' => '¹',
+        '2' => '²',
+        '3' => '³',
+        '4' => '⁴',
+        '5' => '⁵',
+        '6' => '⁶',
+        '7' => '⁷',
+        '8' => '⁸',
+        '9' => '⁹',
+        '-' => '⁻',
+        '+' => '⁺',
+        other => other,
+    }
+}
+
+fn si_symbol(sym: &str) -> String {
+    if sym == "degC" {
+        return "°C".into();
+    }
+    if let Some(prefix) = sym.strip_suffix("ohm") {
+        if lookup(sym).is_some() {
+            return format!("{}Ω", prefix.replacen('u', "µ", 1));
+        }
+    }
+    let exact = SYMBOLS.iter().any(|(s, ..)| *s == sym);
+    if let Some(rest) = sym.strip_prefix('u') {
+        if !exact && !rest.is_empty() && lookup(sym).is_some() {
+            return format!("µ{rest}");
+        }
+    }
+    sym.to_string()
+}
+
 /// Parse a unit.
 ///
 /// ```

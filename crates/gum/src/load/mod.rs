@@ -100,7 +100,8 @@ impl ModelError {
 }
 
 /// Read and load a model file with the default [`Limits`]. The file is
-/// opened for reading only.
+/// opened for reading only; a model without a `title` is titled by the
+/// file's name.
 pub fn load_file(path: &Path) -> Result<Model, ModelError> {
     load_file_with(path, &Limits::default())
 }
@@ -136,7 +137,12 @@ pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError>
             e.utf8_error().valid_up_to()
         ))
     })?;
-    load_str_with(&text, &file, limits)
+    let mut model = load_str_with(&text, &file, limits)?;
+    // A model without a title is called by its file name.
+    if model.title.is_none() {
+        model.title = path.file_name().map(|n| n.to_string_lossy().into_owned());
+    }
+    Ok(model)
 }
 
 /// Load a model from TOML text with the default [`Limits`]; `file` names
