@@ -139,3 +139,44 @@ fn result_lines_read_back_agree_with_the_json() {
     }
     assert_eq!(n, 10 * 3 * 2 * 2);
 }
+
+/// No human-readable number is written with an `e` exponent: budgets,
+/// estimates, u, U, shares — text and Markdown — use × 10ⁿ as the SI
+/// Brochure does (9th ed., 5.4.4); formulas as written and CSV/JSON keep
+/// their own forms. Over a grid of magnitudes from 10⁻³⁰ to 10³⁰.
+#[test]
+fn no_human_readable_number_has_an_e_exponent() {
+    let dir = scratch("no_e");
+    let e_number = |l: &str| {
+        let b = l.as_bytes();
+        (1..b.len().saturating_sub(1)).any(|i| {
+            (b[i] == b'e' || b[i] == b'E')
+                && b[i - 1].is_ascii_digit()
+                && (b[i + 1].is_ascii_digit() || b[i + 1] == b'-' || b[i + 1] == b'+')
+        })
+    };
+    for exp in (-30..=30).step_by(6) {
+        let x = format!("1.2345e{exp}");
+        let u = format!("3.1e{}", exp - 4);
+        let model = write(
+            &dir,
+            &format!("m{exp}.toml"),
+            &format!(
+                "title = \"grid\"\n[inputs.x]\nvalue = {x}\nstandard_uncertainty = {u}\n\
+                 [inputs.y]\nvalue = 2.5\nstandard_uncertainty = 0.01\n\
+                 [[measurands]]\nname = \"p\"\nformula = \"x*y\"\n\
+                 [[measurands]]\nname = \"q\"\nformula = \"x/y\"\n"
+            ),
+        );
+        for format in ["text", "markdown"] {
+            let (code, out, err) = incertus(&["eval", model.to_str().unwrap(), "--format", format]);
+            assert_eq!(code, 0, "{err}");
+            for l in out.lines() {
+                if l.contains("measurement model") || l.contains('∂') {
+                    continue; // formulas as written
+                }
+                assert!(!e_number(l), "{format}, x = {x}: {l}");
+            }
+        }
+    }
+}

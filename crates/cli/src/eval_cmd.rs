@@ -194,7 +194,7 @@ pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
             i.line,
             i.what,
             i.stated,
-            incertus_gum::rounding::significant(i.computed, 8)
+            incertus_gum::rounding::significant_si(i.computed, 8)
         ));
         if let Some(n) = &i.note {
             text.push_str(&format!("           {n}\n"));

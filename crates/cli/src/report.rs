@@ -6,7 +6,7 @@
 //! expanded uncertainty; budgets show intermediate quantities to five
 //! significant digits. JSON and CSV keep full precision.
 
-use incertus_gum::rounding::{significant, write};
+use incertus_gum::rounding::{significant_si as significant, write};
 use incertus_gum::{MeasurandResult, Report};
 use incertus_mc::{McMeasurand, McReport};
 

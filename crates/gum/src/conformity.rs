@@ -384,8 +384,8 @@ pub fn assess(
             r * expanded_uncertainty,
             format!(
                 "guard band w = {} × U, U = {}{} (k = {:.2}, p = {})",
-                crate::rounding::significant(r, 4),
-                crate::rounding::significant(expanded_uncertainty, 2),
+                crate::rounding::significant_si(r, 4),
+                crate::rounding::significant_si(expanded_uncertainty, 2),
                 unit.map(|u| format!(" {u}")).unwrap_or_default(),
                 coverage_factor,
                 percent(coverage_probability)
@@ -446,7 +446,7 @@ pub fn assess(
         None => "normal, N(y, u_c)".to_string(),
         Some(nu) => format!(
             "Student's t with {} dof (the ν_eff used for k), scaled by u_c and centred on y",
-            crate::rounding::significant(nu, 3)
+            crate::rounding::significant_si(nu, 3)
         ),
     };
     if belief.dof.is_some() {
@@ -519,7 +519,7 @@ pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConfo
             c.notes.push(format!(
                 "the Monte Carlo conformance probability {} would lead to the other verdict under this rule; \
                  the first-order distribution may not describe the measurand well (compare the validation)",
-                crate::rounding::significant(p, 4)
+                crate::rounding::significant_si(p, 4)
             ));
         }
     }
@@ -596,7 +596,7 @@ pub fn decide_on_monte_carlo(
 }
 
 fn percent(p: f64) -> String {
-    format!("{} %", crate::rounding::significant(100.0 * p, 4))
+    format!("{} %", crate::rounding::significant_si(100.0 * p, 4))
 }
 
 /// The guard band for a largest specific risk `alpha`, or `None` when no
@@ -832,7 +832,7 @@ pub fn global_risks(
 /// or −∞ / +∞ when absent.
 pub fn limit_text(v: Option<f64>, lower: bool) -> String {
     match v {
-        Some(v) => crate::rounding::significant(v, 10),
+        Some(v) => crate::rounding::significant_si(v, 10),
         None => if lower { "−∞" } else { "+∞" }.to_string(),
     }
 }
@@ -846,7 +846,7 @@ pub fn at_place_of(v: f64, reference: f64) -> String {
         let d = (-e) as usize;
         format!("{v:.d$}")
     } else {
-        crate::rounding::significant(v, 6)
+        crate::rounding::significant_si(v, 6)
     }
 }
 
@@ -921,7 +921,7 @@ pub fn probability(p: f64) -> String {
         let decimals = (-(100.0 * q).log10().floor()) as usize + 1;
         return format!("{:.*} %", decimals, 100.0 * p);
     }
-    format!("{} %", crate::rounding::significant(100.0 * p, 4))
+    format!("{} %", crate::rounding::significant_si(100.0 * p, 4))
 }
 
 // Comparisons with the serialised names, as JSON readers and tests write them.

@@ -373,6 +373,20 @@ pub fn significant(v: f64, sig: usize) -> String {
     }
 }
 
+/// [`significant`] for people: a power of ten as the SI Brochure writes it
+/// (`7.42868 × 10⁻⁷`, `6.02 × 10²³`) instead of `e`; the same digits.
+/// CSV and JSON keep [`significant`]'s or full forms.
+pub fn significant_si(v: f64, sig: usize) -> String {
+    let s = significant(v, sig);
+    match s.split_once('e') {
+        Some((m, x)) => match x.parse::<i32>() {
+            Ok(x) => format!("{m} × {}", power_of_ten(x)),
+            Err(_) => s,
+        },
+        None => s,
+    }
+}
+
 fn trim_zeros(s: &str) -> String {
     if s.contains('.') {
         s.trim_end_matches('0').trim_end_matches('.').to_string()

@@ -71,7 +71,7 @@ fn show(name: &str, value: f64, u: f64, unit: Option<&str>) -> String {
     if u == 0.0 {
         return format!(
             "{name} = {}{unit}  (exact)",
-            incertus_gum::rounding::significant(value, 10)
+            incertus_gum::rounding::significant_si(value, 10)
         );
     }
     let w = write(value, u, 2);
@@ -94,7 +94,7 @@ fn show_result(name: &str, r: &incertus_gum::MeasurandResult) -> String {
     let mut s = if r.standard_uncertainty == 0.0 && !r.warnings.is_empty() {
         format!(
             "{name} = {}{}  (first-order u = 0, not exact: see the warning)",
-            incertus_gum::rounding::significant(r.value, 10),
+            incertus_gum::rounding::significant_si(r.value, 10),
             r.unit
                 .as_deref()
                 .map(|u| format!(" {u}"))
@@ -438,7 +438,7 @@ impl Shell {
                     "∂{name}/∂{} = {}  = {}",
                     b.input,
                     b.sensitivity_formula,
-                    incertus_gum::rounding::significant(b.sensitivity, 8)
+                    incertus_gum::rounding::significant_si(b.sensitivity, 8)
                 )
             })
             .collect();
@@ -488,11 +488,11 @@ impl Shell {
                     m.seed,
                     w.with_power(&w.value),
                     w.with_power(&w.uncertainty),
-                    incertus_gum::rounding::significant(100.0 * m.coverage_probability, 6),
-                    incertus_gum::rounding::significant(m.symmetric_interval[0], 6),
-                    incertus_gum::rounding::significant(m.symmetric_interval[1], 6),
-                    incertus_gum::rounding::significant(m.shortest_interval[0], 6),
-                    incertus_gum::rounding::significant(m.shortest_interval[1], 6),
+                    incertus_gum::rounding::significant_si(100.0 * m.coverage_probability, 6),
+                    incertus_gum::rounding::significant_si(m.symmetric_interval[0], 6),
+                    incertus_gum::rounding::significant_si(m.symmetric_interval[1], 6),
+                    incertus_gum::rounding::significant_si(m.shortest_interval[0], 6),
+                    incertus_gum::rounding::significant_si(m.shortest_interval[1], 6),
                     if m.validation.passed { "validated" } else { "NOT validated (JCGM 101:2008, 8.2): the Monte Carlo result is the one to report" }
                 ));
             }
