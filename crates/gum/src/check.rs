@@ -135,7 +135,7 @@ pub fn check(model: &Model, report: &Report) -> CheckReport {
                             stated: match cmp.stated_at_estimates {
                                 Some(v) => format!(
                                     "{text} = {}",
-                                    crate::rounding::significant(v * to_shown, 8)
+                                    crate::rounding::significant_si(v * to_shown, 8)
                                 ),
                                 None => text.clone(),
                             },

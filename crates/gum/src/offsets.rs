@@ -90,7 +90,7 @@ pub fn classify(f: &Expr, inputs: &[Input]) -> OnScale {
              correction or a weighted mean) or a difference (they sum to 0); here the weights of {} \
              sum to {} at the estimates. Report it in K (SI Brochure, 9th ed., 2.3.1)",
             names.join(", "),
-            crate::rounding::significant(seen[0], 6)
+            crate::rounding::significant_si(seen[0], 6)
         ))
     }
 }

@@ -457,11 +457,11 @@ fn near_kinks(model: &Model, f: &Expr, env: &[(&str, f64)], name: &str) -> Vec<S
                  result reaches that point and the first-order result may be poor; check it by \
                  propagation of distributions (JCGM 101:2008)",
                 k.text,
-                crate::rounding::significant(v, 6),
-                crate::rounding::significant(distance / u, 2),
-                crate::rounding::significant(u, 3),
+                crate::rounding::significant_si(v, 6),
+                crate::rounding::significant_si(distance / u, 2),
+                crate::rounding::significant_si(u, 3),
                 k.at.iter()
-                    .map(|a| crate::rounding::significant(*a, 3))
+                    .map(|a| crate::rounding::significant_si(*a, 3))
                     .collect::<Vec<_>>()
                     .join(" or "),
                 k.function

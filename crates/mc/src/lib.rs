@@ -896,9 +896,9 @@ pub fn attach(model: &Model, report: &mut Report, mc: &McReport) {
                     "the first-order result was not validated by propagation of distributions \
                      (JCGM 101:2008, 8.2: the ends of y ± U differ from those of the Monte Carlo \
                      coverage interval by {} and {}, more than the numerical tolerance {})",
-                    incertus_gum::rounding::significant(m.validation.d_low, 3),
-                    incertus_gum::rounding::significant(m.validation.d_high, 3),
-                    incertus_gum::rounding::significant(m.validation.numerical_tolerance, 3)
+                    incertus_gum::rounding::significant_si(m.validation.d_low, 3),
+                    incertus_gum::rounding::significant_si(m.validation.d_high, 3),
+                    incertus_gum::rounding::significant_si(m.validation.numerical_tolerance, 3)
                 ),
                 value: m.value,
                 standard_uncertainty: m.standard_uncertainty,
