@@ -42,14 +42,20 @@ pub struct DemoArgs {
     out: Option<PathBuf>,
 }
 
+#[allow(clippy::too_many_arguments)]
 fn solve(
     p: &Problem,
     format: Format,
     trials: usize,
     report_dir: Option<&Path>,
     force: bool,
+    inputs: &[PathBuf],
     out: &mut dyn Write,
+    err: &mut dyn Write,
 ) -> Result<(), Failure> {
+    if let Some(dir) = report_dir {
+        crate::files::check_report_folder(dir, force, inputs)?;
+    }
     let checked = build(p).map_err(|e| Failure::input(e.message))?;
     let mut rep = propagate(&checked.model, &Options::default())
         .map_err(|e| Failure::input(e.to_string()))?;
@@ -78,19 +84,25 @@ fn solve(
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = report_dir {
         let files = crate::files::write_report(dir, force, &rep, mc.as_ref(), &[], style)?;
-        let _ = writeln!(
-            out,
-            "report written to {}: {}",
-            dir.display(),
-            files.join(", ")
-        );
+        crate::say_written(matches!(format, Format::Text), out, err, dir, &files);
     }
     Ok(())
 }
 
-pub fn run_dipole(a: &DipoleArgs, out: &mut dyn Write) -> Result<(), Failure> {
+pub fn run_dipole(a: &DipoleArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), Failure> {
     let p = read_problem(&a.file).map_err(|e| Failure::input(e.message))?;
-    solve(&p, a.format, a.mc, a.report.as_deref(), a.force, out)
+    let mut inputs = vec![a.file.clone()];
+    inputs.extend(p.data_file.clone());
+    solve(
+        &p,
+        a.format,
+        a.mc,
+        a.report.as_deref(),
+        a.force,
+        &inputs,
+        out,
+        err,
+    )
 }
 
 pub fn run_demo(a: &DemoArgs, out: &mut dyn Write) -> Result<(), Failure> {
@@ -124,6 +136,8 @@ pub fn run_demo(a: &DemoArgs, out: &mut dyn Write) -> Result<(), Failure> {
         1_000_000,
         Some(&dir),
         false,
+        &[],
         out,
+        &mut std::io::sink(),
     )
 }

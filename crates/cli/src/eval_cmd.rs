@@ -132,9 +132,16 @@ pub(crate) fn evaluate(
     })
 }
 
-pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
+pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
     let settings = mc_settings(a)?;
+    if let Some(dir) = &a.report {
+        // Before any work: the folder must be free, or hold an earlier
+        // report and none of this model's files.
+        let mut inputs = vec![a.file.clone()];
+        inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
+        crate::files::check_report_folder(dir, a.force, &inputs)?;
+    }
     let mut report = evaluate(&a.file, &model, a.coverage, a.second_order)?;
     let mc = match settings {
         Some(s) => {
@@ -155,13 +162,11 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write) -> Result<(), Failure> {
     };
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = &a.report {
+        let mut inputs = vec![a.file.clone()];
+        inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
+        crate::files::check_report_folder(dir, a.force, &inputs)?;
         let files = crate::files::write_report(dir, a.force, &report, mc.as_ref(), &[], style)?;
-        let _ = writeln!(
-            out,
-            "report written to {}: {}",
-            dir.display(),
-            files.join(", ")
-        );
+        crate::say_written(matches!(a.format, Format::Text), out, err, dir, &files);
     }
     Ok(())
 }

@@ -10,14 +10,13 @@
 //! for fits, the data with the fitted line and its 95 % confidence band, and
 //! the residuals with flagged and excluded points marked.
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use incertus_fit::FitResult;
 use incertus_gum::Report;
 use incertus_mc::McReport;
 use plotters::prelude::*;
 
-use crate::atomic::write_atomic;
 use crate::report::{self, Style};
 use crate::Failure;
 
@@ -628,25 +627,7 @@ pub fn write_report(
     extra_fits: &[(String, String, String, FitResult)],
     style: Style,
 ) -> Result<Vec<String>, Failure> {
-    if dir.exists() {
-        let empty = std::fs::read_dir(dir)
-            .map(|mut d| d.next().is_none())
-            .unwrap_or(false);
-        if !dir.is_dir() {
-            return Err(Failure::input(format!(
-                "{} exists and is not a folder",
-                dir.display()
-            )));
-        }
-        if !empty && !force {
-            return Err(Failure::input(format!(
-                "the report folder {} exists and is not empty; choose another, or give --force to replace its report files",
-                dir.display()
-            )));
-        }
-    }
-    std::fs::create_dir_all(dir)
-        .map_err(|e| Failure::input(format!("cannot create {}: {e}", dir.display())))?;
+    check_report_folder(dir, force, &[])?;
     let mut files: Vec<(String, String)> = Vec::new();
     let Plots {
         drawn: plots,
@@ -717,13 +698,62 @@ pub fn write_report(
     for (file, _, svg) in plots {
         files.push((file, svg));
     }
-    let mut written = Vec::new();
-    for (name, contents) in &files {
-        let p = dir.join(name);
-        write_atomic(&p, contents)
-            .map_err(|e| Failure::input(format!("cannot write {}: {e}", p.display())))?;
-        written.push(name.clone());
-    }
+    crate::atomic::write_folder(dir, &files).map_err(|e| {
+        Failure::input(format!(
+            "cannot write the report folder {}: {e} (nothing of it was changed)",
+            dir.display()
+        ))
+    })?;
+    let mut written: Vec<String> = files.into_iter().map(|(name, _)| name).collect();
     written.extend(not_drawn.iter().map(|n| format!("(not drawn: {n})")));
     Ok(written)
+}
+
+/// Whether a report may be written to `dir`, checked before any work: a
+/// new or empty folder, or with `--force` a folder holding nothing but an
+/// earlier report — never one holding a file this evaluation reads
+/// (`inputs`: the model and its data files).
+pub fn check_report_folder(dir: &Path, force: bool, inputs: &[PathBuf]) -> Result<(), Failure> {
+    if !dir.exists() {
+        return Ok(());
+    }
+    if !dir.is_dir() {
+        return Err(Failure::input(format!(
+            "{} exists and is not a folder",
+            dir.display()
+        )));
+    }
+    let entries: Vec<String> = std::fs::read_dir(dir)
+        .map_err(|e| Failure::input(format!("cannot read the folder {}: {e}", dir.display())))?
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .collect();
+    if entries.is_empty() {
+        return Ok(());
+    }
+    if !force {
+        return Err(Failure::input(format!(
+            "the report folder {} exists and is not empty; choose another, or give --force to replace an earlier report there",
+            dir.display()
+        )));
+    }
+    let folder = dir.canonicalize().unwrap_or_else(|_| dir.to_path_buf());
+    for input in inputs {
+        if let Ok(p) = input.canonicalize() {
+            if p.starts_with(&folder) {
+                return Err(Failure::input(format!(
+                    "{} holds {}, which this evaluation reads; --force never replaces what the program is given: choose another report folder",
+                    dir.display(),
+                    input.display()
+                )));
+            }
+        }
+    }
+    if let Some(other) = entries.iter().find(|n| !crate::atomic::is_report_file(n)) {
+        return Err(Failure::input(format!(
+            "{} holds `{other}`, which is not a file of an incertus report; --force replaces an earlier report only: choose another report folder",
+            dir.display()
+        )));
+    }
+    Ok(())
 }

@@ -54,7 +54,10 @@ pub struct FitArgs {
     force: bool,
 }
 
-pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
+pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), Failure> {
+    if let Some(dir) = &a.report {
+        crate::files::check_report_folder(dir, a.force, std::slice::from_ref(&a.file))?;
+    }
     if !a.exclude.is_empty() && a.exclude_reason.is_none() {
         return Err(Failure::input(
             "give --exclude-reason with --exclude: every exclusion is recorded with its reason",
@@ -165,12 +168,7 @@ pub fn run(a: &FitArgs, out: &mut dyn Write) -> Result<(), Failure> {
             &[],
             crate::report::Style { digits: 2 },
         )?;
-        let _ = writeln!(
-            out,
-            "report written to {}: {}",
-            dir.display(),
-            files.join(", ")
-        );
+        crate::say_written(matches!(a.format, FitFormat::Text), out, err, dir, &files);
     }
     Ok(())
 }

@@ -125,6 +125,24 @@ pub(crate) fn name_options(report: &mut incertus_gum::Report) {
     }
 }
 
+/// Where a report folder went: on standard output beside a text report,
+/// on standard error when standard output carries JSON, CSV or Markdown
+/// (so that it stays machine-readable).
+pub(crate) fn say_written(
+    text_output: bool,
+    out: &mut dyn Write,
+    err: &mut dyn Write,
+    dir: &std::path::Path,
+    files: &[String],
+) {
+    let line = format!("report written to {}: {}", dir.display(), files.join(", "));
+    let _ = if text_output {
+        writeln!(out, "{line}")
+    } else {
+        writeln!(err, "{line}")
+    };
+}
+
 /// The size limits, with the environment's overrides (`INCERTUS_MAX_*`).
 pub(crate) fn limits() -> Result<incertus_gum::Limits, Failure> {
     incertus_gum::Limits::with_settings(|name| std::env::var(name).ok()).map_err(Failure::input)
@@ -189,11 +207,11 @@ where
     };
     let result = match cli.command {
         Command::Derive(a) => derive_cmd::run(&a, out),
-        Command::Eval(a) => eval_cmd::run_eval(&a, out),
+        Command::Eval(a) => eval_cmd::run_eval(&a, out, err),
         Command::Check(a) => eval_cmd::run_check(&a, out),
-        Command::Fit(a) => fit_cmd::run(&a, out),
+        Command::Fit(a) => fit_cmd::run(&a, out, err),
         Command::Shell(a) => shell::run(&a, out),
-        Command::Dipole(a) => dipole_cmd::run_dipole(&a, out),
+        Command::Dipole(a) => dipole_cmd::run_dipole(&a, out, err),
         Command::Demo(a) => dipole_cmd::run_demo(&a, out),
     };
     match result {

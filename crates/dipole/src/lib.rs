@@ -71,6 +71,8 @@ pub struct Quantity {
 pub struct Problem {
     /// A title for reports.
     pub title: String,
+    /// The CSV file the series were read from (`None` for built-in data).
+    pub data_file: Option<std::path::PathBuf>,
     /// Solute weight fractions, permittivities and squared refractive
     /// indices of the solutions, with their 1-based data rows.
     pub w2: Vec<f64>,
@@ -495,6 +497,7 @@ pub fn read_problem(path: &Path) -> Result<Problem, DipoleError> {
     }
     Ok(Problem {
         title: f.title.unwrap_or_else(|| "Dipole moment".into()),
+        data_file: Some(data.clone()),
         w2: cols.columns[0].clone(),
         eps12: cols.columns[1].clone(),
         n12_squared,
@@ -529,6 +532,7 @@ pub fn demo_problem() -> Problem {
     }
     let rows = (1..=w2.len()).collect();
     Problem {
+        data_file: None,
         title: "Dipole moment of chlorobenzene in cyclohexane (INVENTED demonstration data)".into(),
         w2,
         eps12,

@@ -36,6 +36,7 @@ fn synthetic(mu_d: f64, seed: u64, u_solvent: f64) -> Problem {
         .map(|w| 1.4235f64.powi(2) + a_n * w + nn.sample(&mut rng))
         .collect();
     Problem {
+        data_file: None,
         title: "synthetic".into(),
         rows: (1..=10).collect(),
         w2,
