@@ -6,6 +6,10 @@
 //!   for every point (leverage from the thin Q, residuals, Cook's distance).
 //! - `fit/basis_1e5_x10`: general linear model, 10⁵ points, 10 parameters.
 //!   Target under 100 ms.
+//! - `fit/line_1e5_one_exclusion`: a straight line through 10⁵ points with
+//!   one excluded, diagnostics on (both fits, every point matched by row).
+//!   18 s while exclusions and points were looked up in lists; well under
+//!   a second as sets.
 //!
 //! Run: `cargo bench --bench fit`.
 
@@ -73,6 +77,23 @@ fn bench(c: &mut Criterion) {
     let rows: Vec<usize> = (1..=x.len()).collect();
     g.bench_function("basis_1e5_x10", |b| {
         b.iter(|| fit_basis(names.clone(), &cols, &x, &y, None, &rows, false).unwrap())
+    });
+    g.bench_function("line_1e5_one_exclusion", |b| {
+        b.iter(|| {
+            fit(&FitRequest {
+                x: &x,
+                y: &y,
+                u_y: None,
+                u_x: None,
+                rows: rows.clone(),
+                degree: 1,
+                exclude: vec![500],
+                exclude_reason: Some("a benchmark".into()),
+                scale_by_chi_squared: false,
+                diagnostics: true,
+            })
+            .unwrap()
+        })
     });
     g.finish();
 }

@@ -374,7 +374,8 @@ pub fn build(p: &Problem) -> Result<Checked, DipoleError> {
         }
     }
     // Curvature: the quadratic coefficient of ε12 against w2.
-    let keep: Vec<bool> = p.rows.iter().map(|r| !p.exclude.contains(r)).collect();
+    let excluded: std::collections::HashSet<usize> = p.exclude.iter().copied().collect();
+    let keep: Vec<bool> = p.rows.iter().map(|r| !excluded.contains(r)).collect();
     let pick = |v: &[f64]| -> Vec<f64> {
         v.iter()
             .zip(&keep)
