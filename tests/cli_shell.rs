@@ -6,6 +6,13 @@ use common::scratch;
 use std::io::Write;
 use std::process::{Command, Stdio};
 
+/// The recovery files kept in a home folder, one per session.
+fn recovery_files(home: &std::path::Path) -> Vec<std::path::PathBuf> {
+    std::fs::read_dir(home.join("recovery"))
+        .map(|d| d.flatten().map(|e| e.path()).collect())
+        .unwrap_or_default()
+}
+
 fn session(input: &str, home: &std::path::Path, cwd: &std::path::Path) -> (i32, String) {
     let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
         .arg("shell")
@@ -76,7 +83,7 @@ x*
 ";
     assert_eq!(out, expected);
     // The definitions were kept for recovery.
-    assert!(dir.join("home/recovery.toml").exists());
+    assert_eq!(recovery_files(&dir.join("home")).len(), 1);
 }
 
 #[test]
@@ -335,4 +342,99 @@ fn load_keeps_fits_and_groups() {
     assert_eq!(eval("m.toml"), eval("s.toml"));
     let saved = std::fs::read_to_string(dir.join("s.toml")).unwrap();
     assert!(saved.contains("observed_together"), "{saved}");
+}
+
+/// A piped script is decoded strictly: a line that is not UTF-8 is an
+/// error naming it, the rest of the script still runs, and the script
+/// exits 1.
+#[test]
+fn a_bad_byte_is_an_error_with_its_line_and_the_script_goes_on() {
+    let dir = scratch("shell_bad_byte");
+    let mut script = b"x = 2.0 u=0.1\ny = caf".to_vec();
+    script.push(0xE9); // Latin-1 é
+    script.extend_from_slice(b" = 3\nz = x*2\nsave after.toml\n");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .arg("shell")
+        .env("INCERTUS_HOME", dir.join("home"))
+        .current_dir(&dir)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    child.stdin.take().unwrap().write_all(&script).unwrap();
+    let out = child.wait_with_output().unwrap();
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(1), "{stdout}");
+    assert!(
+        stdout.contains("error: line 2 is not UTF-8 text (byte 0xE9 after `y = caf`)"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("z = 4.00, u(z) = 0.20"), "{stdout}");
+    assert!(
+        dir.join("after.toml").exists(),
+        "the rest of the script ran"
+    );
+}
+
+/// Each session keeps its own recovery file: a later piped script does not
+/// replace an earlier session's state, and `recover` loads the newest other
+/// one.
+#[test]
+fn sessions_keep_their_own_recovery_state() {
+    let dir = scratch("shell_own_state");
+    let home = dir.join("home");
+    session("a = 1.0 u=0.1\n", &home, &dir);
+    std::thread::sleep(std::time::Duration::from_millis(20));
+    session("b = 2.0 u=0.1\n", &home, &dir);
+    let files = recovery_files(&home);
+    assert_eq!(files.len(), 2, "{files:?}");
+    let texts: Vec<String> = files
+        .iter()
+        .map(|p| std::fs::read_to_string(p).unwrap())
+        .collect();
+    assert!(texts.iter().any(|t| t.contains("[inputs.a]")));
+    assert!(texts.iter().any(|t| t.contains("[inputs.b]")));
+    let (_, out) = session("recover\nb*2\n", &home, &dir);
+    assert!(out.contains("4.00, u = 0.20"), "{out}");
+}
+
+/// SIGTERM (or SIGHUP, a closed terminal) while a script waits for its next
+/// line: the definitions so far are on disk.
+#[test]
+fn a_terminated_session_leaves_its_state_on_disk() {
+    use std::io::{BufRead, BufReader};
+    let dir = scratch("shell_sigterm");
+    let home = dir.join("home");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .arg("shell")
+        .env("INCERTUS_HOME", &home)
+        .current_dir(&dir)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut stdin = child.stdin.take().unwrap();
+    stdin.write_all(b"x = 2.0 u=0.1\ny = 3*x\n").unwrap();
+    stdin.flush().unwrap();
+    let mut lines = BufReader::new(child.stdout.take().unwrap()).lines();
+    // Both statements answered: the shell now waits for more input.
+    lines.next().unwrap().unwrap();
+    lines.next().unwrap().unwrap();
+    let kill = Command::new("kill")
+        .args(["-TERM", &child.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(kill.success());
+    let status = child.wait().unwrap();
+    drop(stdin);
+    assert_ne!(status.code(), Some(0));
+    let files = recovery_files(&home);
+    assert_eq!(files.len(), 1, "{files:?}");
+    let text = std::fs::read_to_string(&files[0]).unwrap();
+    assert!(
+        text.contains("[inputs.x]") && text.contains("formula = \"3*x\""),
+        "{text}"
+    );
 }

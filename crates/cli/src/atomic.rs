@@ -142,3 +142,8 @@ pub(crate) fn write_folder(dir: &Path, files: &[(String, String)]) -> std::io::R
     }
     Ok(())
 }
+
+/// Remove a file the program wrote itself (an old recovery state).
+pub(crate) fn remove_own_file(path: &Path) {
+    let _ = std::fs::remove_file(path);
+}

@@ -19,6 +19,7 @@ pub mod files;
 mod fit_cmd;
 pub mod report;
 mod shell;
+pub mod terminal;
 pub use shell::run_statements;
 
 /// Exit code for a problem with the user's input.
@@ -192,6 +193,10 @@ where
     I: IntoIterator<Item = T>,
     T: Into<OsString> + Clone,
 {
+    // Control characters from files and statements never reach the
+    // terminal raw (`terminal`).
+    let (mut out, mut err) = (terminal::Visible(out), terminal::Visible(err));
+    let (out, err): (&mut dyn Write, &mut dyn Write) = (&mut out, &mut err);
     let cli = match Cli::try_parse_from(args) {
         Ok(c) => c,
         Err(e) => {

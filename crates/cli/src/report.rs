@@ -740,10 +740,23 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
     out
 }
 
+/// Text from a file as Markdown shows it literally: table bars, emphasis,
+/// headings, links and raw HTML escaped.
 fn md_escape(s: &str) -> String {
-    s.replace('|', "\\|")
-        .replace('*', "\\*")
-        .replace('_', "\\_")
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '|' | '*' | '_' | '`' | '[' | ']' | '#' | '\\' => {
+                out.push('\\');
+                out.push(c);
+            }
+            c => out.push(c),
+        }
+    }
+    out
 }
 
 /// The same content as Markdown.

@@ -28,7 +28,7 @@
 //! definitions are written to a recovery file, which a new session offers
 //! to load; every file is written to a temporary name and renamed.
 
-use std::io::{BufRead, IsTerminal, Write};
+use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 
 use clap::Args;
@@ -38,8 +38,10 @@ use incertus_gum::Report;
 
 use crate::Failure;
 
+mod recovery;
 mod session;
 mod statement;
+use recovery::{home, Recovery};
 use session::Session;
 use statement::parse_value;
 
@@ -47,16 +49,6 @@ use statement::parse_value;
 pub struct ShellArgs {
     /// Load this model file first
     file: Option<PathBuf>,
-}
-
-/// Where the recovery file and the history live.
-fn home() -> PathBuf {
-    if let Some(h) = std::env::var_os("INCERTUS_HOME") {
-        return PathBuf::from(h);
-    }
-    std::env::var_os("HOME")
-        .map(|h| PathBuf::from(h).join(".incertus"))
-        .unwrap_or_else(|| PathBuf::from(".incertus"))
 }
 
 pub(crate) use crate::atomic::write_atomic;
@@ -111,6 +103,10 @@ fn show_result(name: &str, r: &incertus_gum::MeasurandResult) -> String {
 
 struct Shell {
     session: Session,
+    /// Whether the definitions changed since the recovery state was taken.
+    changed: bool,
+    /// This session's own recovery file (not offered by `recover`).
+    own_state: Option<PathBuf>,
     out: Vec<String>,
     /// Whether save, load and recover may touch files.
     files: bool,
@@ -138,6 +134,8 @@ impl Shell {
     fn new(files: bool) -> Self {
         Shell {
             session: Session::default(),
+            changed: false,
+            own_state: None,
             out: Vec::new(),
             files,
             failures: 0,
@@ -187,10 +185,13 @@ impl Shell {
             )),
             "save" | "save!" if !arg.is_empty() => self.save(arg, cmd == "save!"),
             "load" if !arg.is_empty() => self.load(Path::new(arg)),
-            "recover" => {
-                let p = home().join("recovery.toml");
-                self.load(&p)
-            }
+            "recover" => match recovery::saved_states()
+                .into_iter()
+                .find(|p| Some(p) != self.own_state.as_ref())
+            {
+                Some(p) => self.load(&p),
+                None => self.say("error: no earlier session was kept"),
+            },
             _ => self.statement(line),
         }
         true
@@ -293,6 +294,7 @@ impl Shell {
                     Definition::Input(i) => self.session.set_input(i),
                     Definition::Measurand(m) => self.session.set_measurand(m),
                 }
+                self.changed = true;
                 self.say(line);
             }
             Err(e) => self.fail(e),
@@ -314,6 +316,7 @@ impl Shell {
             if let Some(m) = self.session.measurand_mut(name) {
                 m.specification = None;
             }
+            self.changed = true;
             return self.say(format!("{name}: no specification"));
         }
         let spec = match specification(&rest) {
@@ -329,6 +332,7 @@ impl Shell {
                 if let Some(m) = self.session.measurand_mut(name) {
                     m.specification = Some(spec);
                 }
+                self.changed = true;
                 if let Some(r) = part.report.results.iter().find(|r| r.name == name) {
                     for l in crate::report::conformity_lines(r) {
                         self.say(l);
@@ -525,6 +529,7 @@ impl Shell {
             Ok(_) => {
                 self.session.d.correlations.retain(|x| !same(x));
                 self.session.d.correlations.push(c);
+                self.changed = true;
                 self.say(format!("r({a}, {b}) = {r}"));
             }
             Err(e) => self.fail(e),
@@ -565,6 +570,7 @@ impl Shell {
             Ok(_) => {
                 let n = session.d.inputs.len() + session.d.measurands.len();
                 self.session = session;
+                self.changed = true;
                 self.say(format!("loaded {n} definitions from {}", path.display()));
             }
             Err(e) => self.fail(format!("{}: {e}", path.display())),
@@ -738,63 +744,26 @@ pub fn run_statements<'a>(lines: impl IntoIterator<Item = &'a str>) -> Vec<Strin
 
 pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let mut sh = Shell::new(true);
-    let flush = |sh: &mut Shell, out: &mut dyn Write| {
-        for l in sh.out.drain(..) {
-            let _ = writeln!(out, "{l}");
-        }
-        let _ = out.flush();
-    };
+    let interactive = std::io::stdin().is_terminal();
+    let mut recovery = Recovery::new(interactive);
+    sh.own_state = Some(recovery.path().to_path_buf());
+    recovery.watch_signals();
     if let Some(f) = &a.file {
         sh.load(f);
         flush(&mut sh, out);
     }
-    let recovery = home().join("recovery.toml");
-    let interactive = std::io::stdin().is_terminal();
     if interactive {
-        let _ = writeln!(
-            out,
-            "incertus shell: type help for statements and commands, quit to leave"
-        );
-        if recovery.exists() {
-            let _ = writeln!(
-                out,
-                "the definitions of an earlier session were kept in {}; type recover to load them",
-                recovery.display()
-            );
-        }
-        let mut rl = rustyline::DefaultEditor::new()
-            .map_err(|e| Failure::input(format!("cannot start the line editor: {e}")))?;
-        let history = home().join("history");
-        let _ = rl.load_history(&history);
-        // Ctrl-C, Ctrl-D or a closed terminal end the loop.
-        while let Ok(line) = rl.readline("incertus> ") {
-            let _ = rl.add_history_entry(line.as_str());
-            let go_on = sh.line(&line);
-            flush(&mut sh, out);
-            if !go_on {
-                break;
-            }
-        }
-        let _ = crate::atomic::replace_with(&history, |tmp| {
-            rl.save_history(tmp).map_err(std::io::Error::other)
-        });
+        prompt_loop(&mut sh, &mut recovery, out)?;
     } else {
-        let stdin = std::io::stdin();
-        for line in stdin.lock().lines() {
-            let Ok(line) = line else { break };
-            let go_on = sh.line(&line);
-            flush(&mut sh, out);
-            if !go_on {
-                break;
-            }
-        }
+        script_loop(&mut sh, &mut recovery, out);
     }
     if !sh.session.is_empty() {
-        if let Err(e) = write_atomic(&recovery, &saved_text(&sh.session.d)) {
+        keep_state(&mut sh, &mut recovery);
+        if let Err(e) = recovery.flush() {
             let _ = writeln!(
                 out,
                 "note: the recovery file {} could not be written: {e}",
-                recovery.display()
+                recovery.path().display()
             );
         }
     }
@@ -807,4 +776,107 @@ pub fn run(a: &ShellArgs, out: &mut dyn Write) -> Result<(), Failure> {
         )));
     }
     Ok(())
+}
+
+fn flush(sh: &mut Shell, out: &mut dyn Write) {
+    for l in sh.out.drain(..) {
+        let _ = writeln!(out, "{l}");
+    }
+    let _ = out.flush();
+}
+
+/// Hand the definitions to the recovery state if they changed.
+fn keep_state(sh: &mut Shell, recovery: &mut Recovery) {
+    if sh.changed && !sh.session.is_empty() {
+        recovery.changed(saved_text(&sh.session.d));
+        sh.changed = false;
+    }
+}
+
+/// At a terminal: line editing and history; every change kept at once.
+fn prompt_loop(
+    sh: &mut Shell,
+    recovery: &mut Recovery,
+    out: &mut dyn Write,
+) -> Result<(), Failure> {
+    let _ = writeln!(
+        out,
+        "incertus shell: type help for statements and commands, quit to leave"
+    );
+    if let Some(p) = recovery.newest_other() {
+        let _ = writeln!(
+            out,
+            "the definitions of an earlier session were kept in {}; type recover to load them",
+            p.display()
+        );
+    }
+    let mut rl = rustyline::DefaultEditor::new()
+        .map_err(|e| Failure::input(format!("cannot start the line editor: {e}")))?;
+    let history = home().join("history");
+    let _ = rl.load_history(&history);
+    // Ctrl-C, Ctrl-D or a closed terminal end the loop.
+    while let Ok(line) = rl.readline("incertus> ") {
+        let _ = rl.add_history_entry(line.as_str());
+        let go_on = sh.line(&line);
+        flush(sh, out);
+        keep_state(sh, recovery);
+        if !go_on {
+            break;
+        }
+    }
+    let _ = crate::atomic::replace_with(&history, |tmp| {
+        rl.save_history(tmp).map_err(std::io::Error::other)
+    });
+    Ok(())
+}
+
+/// A piped script, line by line, decoded strictly: a line that is not UTF-8
+/// text is an error naming it (the script then exits 1), and the script
+/// goes on. The state is handed over whenever the input runs dry (the next
+/// read may wait), and written at most twice a second.
+fn script_loop(sh: &mut Shell, recovery: &mut Recovery, out: &mut dyn Write) {
+    use std::io::BufRead;
+    // Reads larger than standard input's own buffer pass it by, so this
+    // buffer alone says whether the next read may wait.
+    let mut reader = std::io::BufReader::with_capacity(1 << 16, std::io::stdin());
+    let mut buf = Vec::new();
+    let mut number = 0usize;
+    loop {
+        buf.clear();
+        match reader.read_until(b'\n', &mut buf) {
+            Ok(0) => break,
+            Ok(_) => {}
+            Err(e) => {
+                sh.say(format!("error: cannot read the script: {e}"));
+                flush(sh, out);
+                break;
+            }
+        }
+        number += 1;
+        if buf.ends_with(b"\n") {
+            buf.pop();
+            if buf.ends_with(b"\r") {
+                buf.pop();
+            }
+        }
+        let go_on = match std::str::from_utf8(&buf) {
+            Ok(line) => sh.line(line),
+            Err(e) => {
+                let at = e.valid_up_to();
+                sh.say(format!(
+                    "error: line {number} is not UTF-8 text (byte 0x{:02X} after `{}`); the line was not run",
+                    buf[at],
+                    crate::terminal::visible(&String::from_utf8_lossy(&buf[..at]))
+                ));
+                true
+            }
+        };
+        flush(sh, out);
+        if sh.changed && reader.buffer().is_empty() {
+            keep_state(sh, recovery);
+        }
+        if !go_on {
+            break;
+        }
+    }
 }
