@@ -456,8 +456,10 @@ struct Conditions {
 pub fn read_problem(path: &Path) -> Result<Problem, DipoleError> {
     let file = path.display().to_string();
     let bad = |m: String| DipoleError::new(DipoleErrorKind::File, m);
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| bad(format!("{file}: cannot read the file: {e}")))?;
+    let bytes =
+        incertus_fit::read_regular(path, 16 << 20).map_err(|e| bad(format!("{file}: {e}")))?;
+    let text =
+        String::from_utf8(bytes).map_err(|_| bad(format!("{file}: the file is not UTF-8 text")))?;
     let f: File = toml::from_str(&text).map_err(|e| bad(format!("{file}: {e}")))?;
     let (ncol, squared) = match (
         &f.series.refractive_index,

@@ -54,6 +54,45 @@ pub fn read_columns(path: &Path, names: &[&str]) -> Result<Columns, DataError> {
     read_columns_limited(path, names, MAX_DATA_ROWS)
 }
 
+/// Open a file that must be a regular file (not a device, a pipe or a
+/// socket, which could block or never end), for reading at most `limit`
+/// bytes: the reader stops one byte past the limit, so a file that grows or
+/// lies about its size is still caught. The error says why, without any of
+/// the file's content.
+pub fn open_regular(path: &Path, limit: u64) -> Result<std::io::Take<std::fs::File>, String> {
+    let meta = std::fs::metadata(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    if meta.is_dir() {
+        return Err("is a directory, not a file".into());
+    }
+    if !meta.is_file() {
+        return Err(
+            "is not a regular file (a device, a pipe or a socket); give a file on disk".into(),
+        );
+    }
+    if meta.len() > limit {
+        return Err(format!(
+            "the file is {} bytes; the limit is {limit} bytes",
+            meta.len()
+        ));
+    }
+    let f = std::fs::File::open(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    Ok(std::io::Read::take(f, limit + 1))
+}
+
+/// Read a whole regular file of at most `limit` bytes ([`open_regular`]).
+pub fn read_regular(path: &Path, limit: u64) -> Result<Vec<u8>, String> {
+    let mut r = open_regular(path, limit)?;
+    let mut bytes = Vec::new();
+    std::io::Read::read_to_end(&mut r, &mut bytes)
+        .map_err(|e| format!("cannot read the file: {e}"))?;
+    if bytes.len() as u64 > limit {
+        return Err(format!(
+            "the file is larger than the limit of {limit} bytes"
+        ));
+    }
+    Ok(bytes)
+}
+
 /// [`read_columns`] with a limit on the number of data rows.
 pub fn read_columns_limited(
     path: &Path,
@@ -61,25 +100,24 @@ pub fn read_columns_limited(
     max_rows: usize,
 ) -> Result<Columns, DataError> {
     let file = path.display().to_string();
-    let meta = std::fs::metadata(path).map_err(|e| {
-        DataError::new(
-            DataErrorKind::Read,
-            format!("{file}: cannot read the data file: {e}"),
-        )
+    let mut f = open_regular(path, MAX_DATA_BYTES).map_err(|e| {
+        let kind = if e.contains("limit") {
+            DataErrorKind::Limit
+        } else {
+            DataErrorKind::Read
+        };
+        DataError::new(kind, format!("{file}: cannot read the data file: {e}"))
     })?;
-    if meta.len() > MAX_DATA_BYTES {
+    let columns = columns_from_reader(&mut f, &file, names, max_rows);
+    // The reader stops one byte past the limit: reaching it means the file
+    // is larger than its metadata said (a special file, or one growing).
+    if f.limit() == 0 {
         return Err(DataError::new(
             DataErrorKind::Limit,
             format!("{file}: the data file is larger than {MAX_DATA_BYTES} bytes"),
         ));
     }
-    let f = std::fs::File::open(path).map_err(|e| {
-        DataError::new(
-            DataErrorKind::Read,
-            format!("{file}: cannot read the data file: {e}"),
-        )
-    })?;
-    columns_from_reader(f, &file, names, max_rows)
+    columns
 }
 
 /// Read the named columns from CSV text; `file` names it in errors.
@@ -103,6 +141,25 @@ pub fn columns_from_reader(
             )
         })?
         .clone();
+    // A header line that is no header (binary data, a very long line) is
+    // not echoed: it may be anything (`/proc/self/environ`, a key file).
+    let binary = headers
+        .iter()
+        .any(|h| h.chars().any(|c| c.is_control() && c != '\t'));
+    if binary || headers.as_slice().len() > 4096 {
+        return Err(DataError::new(
+            DataErrorKind::Format,
+            format!(
+                "{file}:1: the first line is not a header of column names (it holds {}); \
+                 give a CSV table with a header line",
+                if binary {
+                    "binary data"
+                } else {
+                    "more than 4096 bytes"
+                }
+            ),
+        ));
+    }
     let mut idx = Vec::new();
     for n in names {
         match headers.iter().position(|h| h == *n) {

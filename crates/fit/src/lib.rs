@@ -22,8 +22,8 @@ mod linear;
 mod york;
 
 pub use csvdata::{
-    columns_from_reader, read_columns, read_columns_limited, Columns, DataError, DataErrorKind,
-    MAX_DATA_BYTES, MAX_DATA_ROWS,
+    columns_from_reader, open_regular, read_columns, read_columns_limited, read_regular, Columns,
+    DataError, DataErrorKind, MAX_DATA_BYTES, MAX_DATA_ROWS,
 };
 pub use linear::{fit_basis, fit_polynomial};
 pub use york::fit_york;

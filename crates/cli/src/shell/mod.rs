@@ -550,9 +550,11 @@ impl Shell {
     }
 
     fn load(&mut self, path: &Path) {
-        let text = match std::fs::read_to_string(path) {
-            Ok(t) => t,
-            Err(e) => return self.say(format!("error: cannot read {}: {e}", path.display())),
+        let limit = incertus_gum::Limits::default().max_file_bytes;
+        let text = match incertus_fit::read_regular(path, limit).map(String::from_utf8) {
+            Ok(Ok(t)) => t,
+            Ok(Err(_)) => return self.fail(format!("{} is not UTF-8 text", path.display())),
+            Err(e) => return self.fail(format!("{}: {e}", path.display())),
         };
         let file = path.display().to_string();
         let d = match ModelDescription::from_toml(&text, &file) {

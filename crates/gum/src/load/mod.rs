@@ -118,19 +118,32 @@ pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError>
         message,
         detail: None,
     };
-    let meta = std::fs::metadata(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
-    if meta.is_dir() {
-        return Err(whole("is a directory, not a model file".into()));
+    if let Ok(meta) = std::fs::metadata(path) {
+        if meta.is_dir() {
+            return Err(whole("is a directory, not a model file".into()));
+        }
+        if meta.len() > limits.max_file_bytes {
+            return Err(whole(format!(
+                "the file is {} bytes; model files are limited to {} bytes (INCERTUS_MAX_FILE_BYTES)",
+                meta.len(),
+                limits.max_file_bytes
+            ))
+            .with_kind(ModelErrorKind::Limit));
+        }
     }
-    if meta.len() > limits.max_file_bytes {
-        return Err(whole(format!(
-            "the file is {} bytes; model files are limited to {} bytes (INCERTUS_MAX_FILE_BYTES)",
-            meta.len(),
-            limits.max_file_bytes
-        ))
-        .with_kind(ModelErrorKind::Limit));
-    }
-    let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
+    let bytes = incertus_fit::read_regular(path, limits.max_file_bytes).map_err(|e| {
+        let e = if e.contains("limit") {
+            format!("{e} (INCERTUS_MAX_FILE_BYTES)")
+        } else {
+            e
+        };
+        let kind = if e.contains("limit") {
+            ModelErrorKind::Limit
+        } else {
+            ModelErrorKind::File
+        };
+        whole(e).with_kind(kind)
+    })?;
     let text = String::from_utf8(bytes).map_err(|e| {
         whole(format!(
             "the file is not UTF-8 text (invalid byte at offset {})",
