@@ -295,3 +295,33 @@ fn a_disagreeing_monte_carlo_conformance_probability_is_never_silent() {
     );
     assert!((pc - 0.971_863).abs() < 4.0 * u + 2e-5, "{pc} ± {u}");
 }
+
+/// An input with no finite variance (t with ν ≤ 2: two or three
+/// observations) stops the adaptive procedure at once with the reason and
+/// what to do, instead of running towards its cap (JCGM 101:2008, 6.4.9 and
+/// 7.9); a fixed number of trials still runs.
+#[test]
+fn the_adaptive_procedure_refuses_inputs_without_a_finite_variance() {
+    let dir = scratch("mc_infinite_variance");
+    for n in [2usize, 3] {
+        let obs: Vec<String> = (0..n)
+            .map(|k| format!("{}", 1.0 + 0.1 * k as f64))
+            .collect();
+        let f = write(
+            &dir,
+            &format!("t{n}.toml"),
+            &format!(
+                "[inputs.a]\nobservations = [{}]\n[inputs.b]\nvalue = 2.0\nstandard_uncertainty = 0.1\n\
+                 [[measurands]]\nname = \"y\"\nformula = \"a*b\"\n",
+                obs.join(", ")
+            ),
+        );
+        let (code, _, err) = incertus(&["eval", f.to_str().unwrap(), "--mc", "auto"]);
+        assert_eq!(code, 1, "{err}");
+        assert!(err.contains("no finite variance"), "{err}");
+        assert!(err.contains(&format!("from {n} observations")), "{err}");
+        assert!(err.contains("--mc N"), "{err}");
+        let (code, _, err) = incertus(&["eval", f.to_str().unwrap(), "--mc", "100000"]);
+        assert_eq!(code, 0, "{err}");
+    }
+}

@@ -81,7 +81,11 @@ impl Failure {
 /// higher-order terms, discarding non-finite trials) without command-line
 /// options; here they get the options that carry them out.
 pub(crate) fn with_options(s: &str) -> String {
-    const OPTIONS: [(&str, &str); 4] = [
+    const OPTIONS: [(&str, &str); 5] = [
+        (
+            "give a fixed number of trials (its coverage",
+            "give a fixed number of trials (--mc N; its coverage",
+        ),
         (
             "propagation of distributions (JCGM 101:2008)",
             "propagation of distributions (--mc, JCGM 101:2008)",

@@ -650,6 +650,7 @@ impl Run<'_> {
     /// the means, standard deviations and interval ends are stable.
     fn adaptive(&self, max: usize) -> Result<TrialValues, McError> {
         let (model, settings) = (self.model, self.settings);
+        infinite_variance(model)?;
         let m = model.measurands.len();
         let per = ((100.0 / (1.0 - self.p)).ceil() as usize)
             .max(10_000)
@@ -684,7 +685,7 @@ impl Run<'_> {
             for s in 0..k {
                 self.sequence_statistics(&outs, start + s * per, per, &mut seq_stats)?;
                 h += 1;
-                if h >= 2 && stable(&outs, &seq_stats, h * per, settings.ndig) {
+                if h >= 2 && stable(&seq_stats, per, settings.ndig) {
                     converged = true;
                     break;
                 }
@@ -815,6 +816,44 @@ impl Run<'_> {
     }
 }
 
+/// The adaptive procedure stops when the standard deviation of the trials
+/// settles; an input sampled from a t distribution with ν ≤ 2 has no
+/// finite variance (JCGM 101:2008, 6.4.9: the variance of t_ν is ν/(ν − 2)
+/// for ν > 2 only), so it would never stop.
+fn infinite_variance(model: &Model) -> Result<(), McError> {
+    let used: std::collections::HashSet<String> = model
+        .measurands
+        .iter()
+        .flat_map(|m| m.formula.names())
+        .collect();
+    for i in &model.inputs {
+        let nu = i.dof.unwrap_or(f64::INFINITY);
+        if matches!(i.distribution, incertus_gum::Distribution::StudentT)
+            && nu <= 2.0
+            && i.standard_uncertainty > 0.0
+            && used.contains(&i.name)
+        {
+            let how = match i.evaluation {
+                incertus_gum::Evaluation::TypeA { n, .. } => format!(" (from {n} observations)"),
+                _ => String::new(),
+            };
+            return Err(McError::new(
+                McErrorKind::Settings,
+                format!(
+                    "`{}` is sampled from a t distribution with ν = {}{how}, which has no finite \
+                     variance (JCGM 101:2008, 6.4.9), so the standard deviation of the trials never \
+                     settles and the adaptive procedure (7.9) would not stop; give a fixed number of \
+                     trials (its coverage intervals remain valid), or base the input on more \
+                     observations",
+                    i.name,
+                    incertus_gum::rounding::significant_si(nu, 4)
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
 /// A trial with a non-finite value of any measurand is dropped as a whole
 /// (only when that was asked; otherwise the run stopped before), so the
 /// measurands stay paired trial by trial. The number dropped.
@@ -933,12 +972,20 @@ pub fn attach(model: &Model, report: &mut Report, mc: &McReport) {
 /// The stopping rule of JCGM 101:2008, 7.9.4: twice the standard deviation
 /// of the sequence means of y, u(y), y_low and y_high each within the
 /// numerical tolerance of u(y) from all trials so far, for every measurand.
-fn stable(outs: &[Vec<f64>], seq: &[Vec<[f64; 4]>], n: usize, ndig: u32) -> bool {
-    for (o, s) in outs.iter().zip(seq) {
-        let all: Vec<f64> = o[..n].iter().copied().filter(|x| x.is_finite()).collect();
-        let u = stats::std_dev(&all, stats::mean(&all));
-        let delta = numerical_tolerance(u, ndig);
+///
+/// u(y) of all trials comes from the sequences' own means and standard
+/// deviations (the pooled variance: within-sequence plus between-sequence
+/// sums of squares over hM − 1), so a check costs O(h), not a pass over
+/// every trial: the procedure stays linear in the number of trials.
+fn stable(seq: &[Vec<[f64; 4]>], per: usize, ndig: u32) -> bool {
+    for s in seq {
         let h = s.len() as f64;
+        let m = per as f64;
+        let grand = s.iter().map(|r| r[0]).sum::<f64>() / h;
+        let within: f64 = s.iter().map(|r| (m - 1.0) * r[1] * r[1]).sum();
+        let between: f64 = s.iter().map(|r| m * (r[0] - grand).powi(2)).sum();
+        let u = ((within + between) / (h * m - 1.0)).sqrt();
+        let delta = numerical_tolerance(u, ndig);
         for k in 0..4 {
             let vals: Vec<f64> = s.iter().map(|r| r[k]).collect();
             let mean = vals.iter().sum::<f64>() / h;
