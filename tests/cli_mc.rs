@@ -325,3 +325,21 @@ fn the_adaptive_procedure_refuses_inputs_without_a_finite_variance() {
         assert_eq!(code, 0, "{err}");
     }
 }
+
+/// Under a limit on the process's memory (`ulimit -v`, as a batch system
+/// or a container sets one) the memory check sees the limit, not only the
+/// machine's free memory: a clear refusal, not an abort (exit 134).
+#[test]
+fn the_memory_check_sees_the_process_limit() {
+    let bin = env!("CARGO_BIN_EXE_incertus");
+    let out = std::process::Command::new("sh")
+        .arg("-c")
+        .arg(format!(
+            "ulimit -v 600000; exec {bin} eval examples/models/mc_five_inputs.toml --mc 100000000"
+        ))
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(1), "{err}");
+    assert!(err.contains("of memory, more than the"), "{err}");
+}

@@ -169,11 +169,80 @@ fn block_seed(seed: u64, b: u64) -> u64 {
     z ^ (z >> 31)
 }
 
+/// The memory this process may still take: the smallest of the system's
+/// available memory (`MemAvailable`), its control group's limit less its
+/// use (cgroup v2 `memory.max` − `memory.current`, or v1
+/// `memory.limit_in_bytes` − `memory.usage_in_bytes`), and the process's
+/// address-space and data limits (`ulimit -v`, `-d`) less what it already
+/// maps. `None` when none of them can be read.
 fn available_memory() -> Option<u64> {
-    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
-    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
-    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kb * 1024)
+    let read = |p: &str| std::fs::read_to_string(p).ok();
+    let number = |s: Option<String>| s.and_then(|t| t.trim().parse::<u64>().ok());
+    let mut candidates: Vec<u64> = Vec::new();
+    if let Some(text) = read("/proc/meminfo") {
+        if let Some(kb) = kb_field(&text, "MemAvailable:") {
+            candidates.push(kb * 1024);
+        }
+    }
+    for (max, used) in [
+        ("/sys/fs/cgroup/memory.max", "/sys/fs/cgroup/memory.current"),
+        (
+            "/sys/fs/cgroup/memory/memory.limit_in_bytes",
+            "/sys/fs/cgroup/memory/memory.usage_in_bytes",
+        ),
+    ] {
+        // "max" (no limit) does not parse and is skipped.
+        if let Some(limit) = number(read(max)) {
+            candidates.push(limit.saturating_sub(number(read(used)).unwrap_or(0)));
+        }
+    }
+    if let (Some(limits), Some(status)) = (read("/proc/self/limits"), read("/proc/self/status")) {
+        for (name, field) in [
+            ("Max address space", "VmSize:"),
+            ("Max data size", "VmData:"),
+        ] {
+            let soft = limits
+                .lines()
+                .find(|l| l.starts_with(name))
+                .and_then(|l| l[name.len()..].split_whitespace().next())
+                .and_then(|v| v.parse::<u64>().ok());
+            if let Some(soft) = soft {
+                let mapped = kb_field(&status, field).unwrap_or(0) * 1024;
+                candidates.push(soft.saturating_sub(mapped));
+            }
+        }
+    }
+    candidates.into_iter().min()
+}
+
+/// A `Name:  123 kB` field of a /proc file, in kB.
+fn kb_field(text: &str, name: &str) -> Option<u64> {
+    let line = text.lines().find(|l| l.starts_with(name))?;
+    line[name.len()..].split_whitespace().next()?.parse().ok()
+}
+
+/// `m` columns of `n` zeros, or an error if the memory cannot be had (an
+/// allocation that fails is reported, not an abort).
+fn zeroed(m: usize, n: usize) -> Result<Vec<Vec<f64>>, McError> {
+    let mut cols = Vec::new();
+    cols.try_reserve_exact(m).map_err(|_| out_of_memory(n))?;
+    for _ in 0..m {
+        let mut c: Vec<f64> = Vec::new();
+        c.try_reserve_exact(n).map_err(|_| out_of_memory(n))?;
+        c.resize(n, 0.0);
+        cols.push(c);
+    }
+    Ok(cols)
+}
+
+fn out_of_memory(n: usize) -> McError {
+    McError::new(
+        McErrorKind::Memory,
+        format!(
+            "the memory for {n} trials could not be had (the system or a limit on this process \
+             refused it); ask for fewer trials"
+        ),
+    )
 }
 
 /// Bytes a run of `trials` trials holds: every measurand's values plus two
@@ -639,7 +708,7 @@ impl Run<'_> {
             ));
         }
         self.check_memory(n)?;
-        let mut outs = vec![vec![0.0; n]; self.model.measurands.len()];
+        let mut outs = zeroed(self.model.measurands.len(), n)?;
         let (counts, bad, mo) = self.engine.run(0, &mut outs, 0..n);
         handle_non_finite(self.model, self.engine, &counts, bad, n, self.settings)?;
         Ok((outs, mo, None))
@@ -670,10 +739,12 @@ impl Run<'_> {
             let end = start + k * per;
             self.check_memory(end)?;
             for o in outs.iter_mut() {
+                o.try_reserve_exact(end - o.len())
+                    .map_err(|_| out_of_memory(end))?;
                 o.resize(end, 0.0);
             }
             if outs.is_empty() {
-                outs = vec![vec![0.0; end]; m];
+                outs = zeroed(m, end)?;
             }
             let (counts, bad, mo) = self.engine.run(start, &mut outs, start..end);
             block_moments.extend(mo);
