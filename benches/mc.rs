@@ -4,6 +4,9 @@
 //!   (sampling, tape evaluation, moments, both intervals), all cores.
 //! - `mc/intervals_1e6`: the two coverage intervals of 10⁶ values, by
 //!   binning (`summarize`) and by a full radix sort (`summarize_sorted`).
+//! - `mc/demo_dipole`: the work of `incertus demo` in process: the dipole
+//!   model built and checked (two fits), propagated, and 10⁶ Monte Carlo
+//!   trials (its speed is measured here, not asserted in a test).
 //!
 //! Run: `cargo bench --bench mc`.
 
@@ -33,6 +36,14 @@ fn bench(c: &mut Criterion) {
     });
     g.bench_function("intervals_1e6/full_sort", |b| {
         b.iter(|| summarize_sorted(&mut values.clone(), 0.95, 60))
+    });
+    let problem = incertus::dipole::demo_problem();
+    g.bench_function("demo_dipole", |b| {
+        b.iter(|| {
+            let checked = incertus::dipole::build(&problem).unwrap();
+            let gum = propagate(&checked.model, &Options::default()).unwrap();
+            run(&checked.model, &gum, &Settings::default()).unwrap()
+        })
     });
     g.finish();
 }

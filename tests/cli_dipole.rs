@@ -8,13 +8,11 @@ use std::process::Command;
 #[test]
 fn demo_prints_a_budget_the_moment_in_debye_and_writes_a_report() {
     let dir = scratch("demo");
-    let t = std::time::Instant::now();
     let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
         .arg("demo")
         .current_dir(&dir)
         .output()
         .unwrap();
-    let elapsed = t.elapsed();
     assert!(
         out.status.success(),
         "{}",
@@ -43,7 +41,6 @@ fn demo_prints_a_budget_the_moment_in_debye_and_writes_a_report() {
     assert!(
         String::from_utf8_lossy(&out.stdout).contains("report written to incertus-demo-report-2")
     );
-    assert!(elapsed.as_secs_f64() < 5.0, "{elapsed:?}"); // well under a second on the build machine
 }
 
 #[test]

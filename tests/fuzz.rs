@@ -13,7 +13,8 @@
 //! watchdog ends the process with the input if one does not.
 //!
 //! `INCERTUS_FUZZ_SECONDS` sets the time per target (default 2; `.ci/run`
-//! sets 25), `INCERTUS_FUZZ_SEED` the seed (printed either way). A finding
+//! sets 25), `INCERTUS_FUZZ_SEED` the seed (fixed by default, so CI is
+//! deterministic; `random` asks for a new one; printed either way). A finding
 //! is written to `target/fuzz-findings/` and printed; copy it to
 //! `tests/fuzz/regressions/TARGET/` so that it is replayed on every run.
 
@@ -426,14 +427,15 @@ fn fuzz(target: &'static str, run: fn(&[u8]) -> Result<String, String>, ext: Opt
         .ok()
         .and_then(|s| s.parse().ok())
         .unwrap_or(2);
-    let seed: u64 = std::env::var("INCERTUS_FUZZ_SEED")
-        .ok()
-        .and_then(|s| s.parse().ok())
-        .unwrap_or_else(|| {
-            std::time::SystemTime::now()
-                .duration_since(std::time::UNIX_EPOCH)
-                .map_or(1, |d| d.as_nanos() as u64)
-        });
+    // A fixed seed unless asked otherwise: CI is deterministic; a long
+    // local run may say INCERTUS_FUZZ_SEED=random (or give a number).
+    let seed: u64 = match std::env::var("INCERTUS_FUZZ_SEED").ok().as_deref() {
+        Some("random") => std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(1, |d| d.as_nanos() as u64),
+        Some(s) => s.parse().unwrap_or(20_261_202),
+        None => 20_261_202,
+    };
     let seeds = files(&root.join("corpus").join(target), ext);
     assert!(!seeds.is_empty(), "no seeds for {target}");
     let regressions = files(&root.join("regressions").join(target), None);
