@@ -241,7 +241,12 @@ impl Expr {
     pub fn depends_on(&self, name: &str) -> bool {
         match &self.kind {
             Kind::Var(n) => n == name,
-            _ => self.children().iter().any(|c| c.depends_on(name)),
+            Kind::Num(_) | Kind::Pi => false,
+            Kind::Neg(a) => a.depends_on(name),
+            Kind::Sum(ts) => ts.iter().any(|t| t.expr.depends_on(name)),
+            Kind::Product(fs) => fs.iter().any(|f| f.expr.depends_on(name)),
+            Kind::Pow(a, b) => a.depends_on(name) || b.depends_on(name),
+            Kind::Call(_, args) => args.iter().any(|a| a.depends_on(name)),
         }
     }
 

@@ -23,7 +23,45 @@ use crate::simplify::simplify;
 /// assert_eq!(print(&derivative(&f, "y")), "x^2*cos(y)");
 /// ```
 pub fn derivative(e: &Expr, wrt: &str) -> Expr {
-    simplify(&raw(e, wrt))
+    let w = Wrt::new(e, wrt);
+    simplify(&raw(e, &w))
+}
+
+/// The name a derivative is taken with respect to, and which nodes of the
+/// formula depend on it, found in one pass: asking each node anew would
+/// walk its subtree again at every level (cubic in a long chain of nested
+/// sums).
+struct Wrt<'a> {
+    name: &'a str,
+    depends: std::collections::HashSet<*const Expr>,
+}
+
+impl<'a> Wrt<'a> {
+    fn new(e: &Expr, name: &'a str) -> Self {
+        fn mark(e: &Expr, name: &str, set: &mut std::collections::HashSet<*const Expr>) -> bool {
+            let d = match &e.kind {
+                Kind::Var(n) => n == name,
+                Kind::Num(_) | Kind::Pi => false,
+                Kind::Neg(a) => mark(a, name, set),
+                Kind::Sum(ts) => ts.iter().fold(false, |d, t| mark(&t.expr, name, set) | d),
+                Kind::Product(fs) => fs.iter().fold(false, |d, f| mark(&f.expr, name, set) | d),
+                Kind::Pow(a, b) => mark(a, name, set) | mark(b, name, set),
+                Kind::Call(_, args) => args.iter().fold(false, |d, a| mark(a, name, set) | d),
+            };
+            if d {
+                set.insert(e as *const Expr);
+            }
+            d
+        }
+        let mut depends = std::collections::HashSet::new();
+        mark(e, name, &mut depends);
+        Wrt { name, depends }
+    }
+
+    /// Whether `e`, a node of the formula, depends on the name.
+    fn dep(&self, e: &Expr) -> bool {
+        self.depends.contains(&(e as *const Expr))
+    }
 }
 
 /// The mixed partial derivative with respect to each name of `wrt` in turn
@@ -145,18 +183,18 @@ fn sq(a: Expr, s: Span) -> Expr {
 }
 
 /// The unsimplified derivative.
-fn raw(e: &Expr, w: &str) -> Expr {
+fn raw(e: &Expr, w: &Wrt) -> Expr {
     let s = e.span;
-    if !e.depends_on(w) {
+    if !w.dep(e) {
         return num(0.0, s);
     }
     match &e.kind {
         Kind::Num(_) | Kind::Pi => num(0.0, s),
-        Kind::Var(n) => num(if n == w { 1.0 } else { 0.0 }, s),
+        Kind::Var(n) => num(if n == w.name { 1.0 } else { 0.0 }, s),
         Kind::Neg(a) => neg(raw(a, w), s),
         Kind::Sum(ts) => add(
             ts.iter()
-                .filter(|t| t.expr.depends_on(w))
+                .filter(|t| w.dep(&t.expr))
                 .map(|t| (t.negative, raw(&t.expr, w)))
                 .collect(),
             s,
@@ -165,7 +203,7 @@ fn raw(e: &Expr, w: &str) -> Expr {
             // Σ_i (Π_{j≠i} f_j) · d(f_i), with d(1/g) = -g'/g².
             let mut terms = Vec::new();
             for (i, fi) in fs.iter().enumerate() {
-                if !fi.expr.depends_on(w) {
+                if !w.dep(&fi.expr) {
                     continue;
                 }
                 // The derivative takes the place of the factor, so that the
@@ -202,7 +240,7 @@ fn raw(e: &Expr, w: &str) -> Expr {
 
 /// The chain rule through a built-in function: f'(u)·u' (atan2 and hypot
 /// by their two-argument rules).
-fn d_call(e: &Expr, f: Func, args: &[Expr], w: &str) -> Expr {
+fn d_call(e: &Expr, f: Func, args: &[Expr], w: &Wrt) -> Expr {
     let s = e.span;
     let u = &args[0];
     let du = raw(u, w);
@@ -307,17 +345,17 @@ fn d_call(e: &Expr, f: Func, args: &[Expr], w: &str) -> Expr {
     mul(vec![outer, du], s)
 }
 
-fn d_pow(e: &Expr, b: &Expr, x: &Expr, w: &str) -> Expr {
+fn d_pow(e: &Expr, b: &Expr, x: &Expr, w: &Wrt) -> Expr {
     let s = e.span;
     let db = raw(b, w);
-    if !x.depends_on(w) {
+    if !w.dep(x) {
         // x · b^(x−1) · b'
         let xm1 = add(vec![(false, x.clone()), (true, num(1.0, s))], s);
         return mul(vec![x.clone(), pow(b.clone(), xm1, s), db], s);
     }
     let dx = raw(x, w);
     let lnb = call(Func::Ln, b.clone(), s);
-    if !b.depends_on(w) {
+    if !w.dep(b) {
         // b^x · ln(b) · x'
         return mul(vec![e.clone(), lnb, dx], s);
     }

@@ -16,6 +16,8 @@
 //! terms. It reduces to G.4.1 without correlations and is exact (n − 1) for
 //! a block alone; its coverage is checked by simulation in the tests.
 
+use std::collections::HashMap;
+
 use incertus_expr::{derivative, print, simplify, Expr, Kind};
 use serde::Serialize;
 
@@ -522,8 +524,24 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     let mut results = Vec::new();
     let mut sens_rows: Vec<Vec<f64>> = Vec::new();
     let mut grouped_note = false;
+    // Inputs and measurands at their values, for the chain rule.
+    let mut all_env = cx.env.clone();
+    all_env.extend(
+        model
+            .measurands
+            .iter()
+            .zip(&values)
+            .map(|(m, v)| (m.name.as_str(), *v)),
+    );
+    let mut row_of: HashMap<&str, usize> = HashMap::new();
     for (mi, m) in model.measurands.iter().enumerate() {
-        let first = cx.first_order(m, &expanded[mi].1, values[mi])?;
+        let chain = Chain {
+            env: &all_env,
+            rows: &sens_rows,
+            row_of: &row_of,
+        };
+        let first = cx.first_order(m, &expanded[mi].1, values[mi], &chain)?;
+        row_of.insert(m.name.as_str(), mi);
         grouped_note |= first
             .corr_lines
             .iter()
@@ -566,6 +584,18 @@ struct Context<'a> {
     env: Vec<(&'a str, f64)>,
     /// The block (shared estimate of u) of each input, for ν_eff.
     group_of: Vec<usize>,
+}
+
+/// Above this size (nodes) of a derivative of a formula written out,
+/// measurands that use measurands are differentiated by the chain rule.
+const CHAIN_RULE_FROM: f64 = 500.0;
+
+/// What the chain rule needs: every input and measurand at its value, and
+/// the sensitivity rows of the measurands done so far.
+struct Chain<'e> {
+    env: &'e [(&'e str, f64)],
+    rows: &'e [Vec<f64>],
+    row_of: &'e HashMap<&'e str, usize>,
 }
 
 /// The first-order result of one measurand before it is reported.
@@ -633,6 +663,7 @@ impl<'a> Context<'a> {
         m: &Measurand,
         f: &Expr,
         y: f64,
+        chain: &Chain,
     ) -> Result<FirstOrder<'a>, PropagationError> {
         let model = self.model;
         let n = model.inputs.len();
@@ -646,9 +677,25 @@ impl<'a> Context<'a> {
         let mut formulas = vec![String::new(); n];
         let mut derivatives: Vec<Option<Expr>> = vec![None; n];
         let mut used = Vec::new();
+        let through_measurands = m
+            .formula
+            .names()
+            .iter()
+            .any(|w| chain.row_of.contains_key(w.as_str()));
         for i in 0..n {
             let name = &model.inputs[i].name;
             if !f.depends_on(name) {
+                continue;
+            }
+            // A chain of measurands: the derivative of the formula written
+            // out grows with the square of the chain; the chain rule over
+            // each measurand's own formula stays linear (same value to the
+            // last bits, JCGM 100:2008, 5.1.3).
+            if through_measurands && incertus_expr::derivative_size(f, name) > CHAIN_RULE_FROM {
+                let (ci, text) = self.by_chain_rule(m, i, chain)?;
+                c[i] = ci;
+                formulas[i] = text;
+                used.push(i);
                 continue;
             }
             let d = checked_derivative(f, name, self.opts.limits.max_derivative_nodes, &m.name)
@@ -712,6 +759,55 @@ impl<'a> Context<'a> {
             uc,
             warnings,
         })
+    }
+
+    /// ∂y/∂x_i by the chain rule: Σ_w ∂f/∂w · ∂w/∂x_i over the names w of
+    /// the measurand's own formula (∂x_i/∂x_i = 1, a measurand's row from
+    /// its own evaluation), and the sum written out as text.
+    fn by_chain_rule(
+        &self,
+        m: &Measurand,
+        i: usize,
+        chain: &Chain,
+    ) -> Result<(f64, String), PropagationError> {
+        let input = self.model.inputs[i].name.as_str();
+        let (mut total, mut terms) = (0.0, Vec::new());
+        for w in m.formula.names() {
+            let through = if w == input {
+                1.0
+            } else if let Some(&k) = chain.row_of.get(w.as_str()) {
+                chain.rows[k][i]
+            } else {
+                continue;
+            };
+            if through == 0.0 {
+                continue;
+            }
+            let d = checked_derivative(
+                &m.formula,
+                &w,
+                self.opts.limits.max_derivative_nodes,
+                &m.name,
+            )?;
+            let dw = d.eval(chain.env).map_err(|e| {
+                perr(
+                    format!(
+                        "the sensitivity coefficient of `{w}` in `{}` is not defined at the input \
+                         estimates: {}",
+                        m.name, e.message
+                    ),
+                    Some(format!("∂{}/∂{w} = {}", m.name, print(&d))),
+                )
+                .at(m.line)
+            })?;
+            total += dw * through;
+            terms.push(if w == input {
+                format!("({})", print(&d))
+            } else {
+                format!("({})*∂{w}/∂{input}", print(&d))
+            });
+        }
+        Ok((total, terms.join(" + ")))
     }
 
     /// ν_eff: Welch-Satterthwaite generalised to correlated inputs by
@@ -966,235 +1062,5 @@ impl<'a> Context<'a> {
     }
 }
 
-/// A result and its uncertainty must be finite and normal numbers.
-fn check_range(m: &Measurand, y: f64, uc: f64) -> Result<(), PropagationError> {
-    if !uc.is_finite() {
-        return Err(perr_of(
-            PropagationErrorKind::Range,
-            format!(
-                "the combined standard uncertainty of `{}` is not a finite number: a contribution \
-                 c·u(x) exceeds the range of double precision (about 1.8e308); express the model in \
-                 units that keep its values well inside that range",
-                m.name
-            ),
-            None,
-        )
-        .at(m.line));
-    }
-    let subnormal = |v: f64| v != 0.0 && v.abs() < f64::MIN_POSITIVE;
-    if subnormal(y) || subnormal(uc) {
-        return Err(perr_of(
-            PropagationErrorKind::Range,
-            format!(
-                "the result of `{}` or its uncertainty lies below the normal range of double \
-                 precision (about 2.2e-308), where digits are lost to underflow; express the model \
-                 in units that keep its values well inside that range",
-                m.name
-            ),
-            None,
-        )
-        .at(m.line));
-    }
-    Ok(())
-}
-
-/// The conformity assessment of a result (JCGM 106:2012); a decision on a
-/// result with warnings is marked for review.
-fn assess_conformity(
-    r: &mut MeasurandResult,
-    spec: &crate::conformity::Specification,
-    p: f64,
-    unit: Option<&str>,
-) -> Result<(), PropagationError> {
-    let belief = crate::conformity::Belief {
-        value: r.value,
-        standard_uncertainty: r.expanded_uncertainty / r.coverage_factor,
-        dof: r.effective_dof_used,
-    };
-    let mut c = crate::conformity::assess(
-        spec,
-        belief,
-        r.expanded_uncertainty,
-        r.coverage_factor,
-        p,
-        unit,
-    )
-    .map_err(|e| {
-        perr_of(
-            PropagationErrorKind::Conformity,
-            format!("measurand `{}`: {e}", r.name),
-            None,
-        )
-    })?;
-    if !r.warnings.is_empty() {
-        c.statement = format!(
-            "NOT VALID WITHOUT REVIEW: the first-order result of `{}` this decision rests on \
-             is not reliable here ({} warning{} with the result; check it by propagation of \
-             distributions). {}",
-            r.name,
-            r.warnings.len(),
-            if r.warnings.len() == 1 { "" } else { "s" },
-            c.statement
-        );
-        c.notes.extend(r.warnings.iter().cloned());
-    }
-    r.conformity = Some(c);
-    Ok(())
-}
-
-/// Correlation and covariance of the measurands: C V Cᵀ (JCGM 102:2011,
-/// 6.2.1.3), in the measurands' units; the diagonal from the scaled
-/// computation, for consistency.
-fn output_covariance(
-    model: &Model,
-    results: &[MeasurandResult],
-    sens_rows: &[Vec<f64>],
-) -> (NamedMatrix, NamedMatrix) {
-    let v = model.covariance();
-    let m = results.len();
-    let f: Vec<f64> = model
-        .measurands
-        .iter()
-        .map(Measurand::unit_factor)
-        .collect();
-    let mut cov = vec![vec![0.0; m]; m];
-    for a in 0..m {
-        for b in 0..=a {
-            let q = crate::matrix::quad(&sens_rows[a], &v, &sens_rows[b]) / (f[a] * f[b]);
-            cov[a][b] = q;
-            cov[b][a] = q;
-        }
-    }
-    for (a, r) in results.iter().enumerate() {
-        cov[a][a] = r.standard_uncertainty * r.standard_uncertainty;
-    }
-    let mut corr = vec![vec![0.0; m]; m];
-    for a in 0..m {
-        for b in 0..m {
-            let (ua, ub) = (
-                results[a].standard_uncertainty,
-                results[b].standard_uncertainty,
-            );
-            corr[a][b] = if a == b {
-                1.0
-            } else if ua > 0.0 && ub > 0.0 {
-                (cov[a][b] / ua / ub).clamp(-1.0, 1.0)
-            } else {
-                0.0
-            };
-        }
-    }
-    let names: Vec<String> = results.iter().map(|r| r.name.clone()).collect();
-    (
-        NamedMatrix {
-            names: names.clone(),
-            matrix: corr,
-        },
-        NamedMatrix { names, matrix: cov },
-    )
-}
-
-/// u_c with the higher-order terms of JCGM 100:2008, 5.1.2 (note):
-/// u² = Σ c_i² u_i² + Σ_i Σ_j [½ (∂²f/∂x_i∂x_j)² + ∂f/∂x_i · ∂³f/∂x_i∂x_j²] u_i² u_j²,
-/// valid for independent, normally distributed inputs; refused when the
-/// inputs of the measurand are correlated.
-// The arguments are the pieces of one measurand's budget; a struct for them
-// would be used only here.
-#[allow(clippy::too_many_arguments)]
-fn second_order(
-    model: &Model,
-    name: &str,
-    f: &Expr,
-    used: &[usize],
-    u: &[f64],
-    uc: f64,
-    env: &[(&str, f64)],
-    max_nodes: u64,
-) -> Result<f64, PropagationError> {
-    if let Some(c) = model
-        .correlations
-        .iter()
-        .find(|c| c.coefficient != 0.0 && used.contains(&c.a) && used.contains(&c.b))
-    {
-        return Err(perr_of(
-            PropagationErrorKind::Method,
-            format!(
-                "`{name}`: the higher-order terms of JCGM 100:2008, 5.1.2 hold for independent inputs \
-                 only, and `{}` and `{}` are correlated; use propagation of distributions instead",
-                model.inputs[c.a].name, model.inputs[c.b].name
-            ),
-            None,
-        ));
-    }
-    let f = simplify(f);
-    let names: Vec<&str> = used
-        .iter()
-        .map(|&i| model.inputs[i].name.as_str())
-        .collect();
-    let eval = |e: &Expr, what: &str| -> Result<f64, PropagationError> {
-        e.eval(env).map_err(|err| {
-            perr(
-                format!(
-                    "`{name}`: the {what} is not defined at the input estimates: {}",
-                    err.message
-                ),
-                Some(print(e)),
-            )
-        })
-    };
-    let firsts: Vec<Expr> = names
-        .iter()
-        .map(|w| checked_derivative(&f, w, max_nodes, name))
-        .collect::<Result<_, _>>()?;
-    // The terms in the unit of y: b = f_i u_i, a = f_ij u_i u_j,
-    // c = f_ijj u_i u_j². They are scaled by the largest of them and u_c
-    // before squaring, so that nothing under- or overflows; the higher-order
-    // terms count also when every first-order coefficient is zero
-    // (u_c = 0, the product of two zero estimates).
-    let mut terms: Vec<(f64, f64, f64)> = Vec::new();
-    for (a, &i) in used.iter().enumerate() {
-        if u[i] == 0.0 {
-            continue;
-        }
-        let fi = eval(&firsts[a], "first derivative")?;
-        for (b, &j) in used.iter().enumerate() {
-            if u[j] == 0.0 {
-                continue;
-            }
-            let fij_e = checked_derivative(&firsts[a], names[b], max_nodes, name)?;
-            let fij = eval(&fij_e, "second derivative")?;
-            let fijj = eval(
-                &checked_derivative(&fij_e, names[b], max_nodes, name)?,
-                "third derivative",
-            )?;
-            terms.push((fi * u[i], fij * u[i] * u[j], fijj * u[i] * u[j] * u[j]));
-        }
-    }
-    let scale = terms
-        .iter()
-        .flat_map(|&(b, a, c)| [b.abs(), a.abs(), c.abs()])
-        .fold(uc, f64::max);
-    if scale == 0.0 {
-        return Ok(0.0);
-    }
-    if !scale.is_finite() {
-        return Err(perr_of(
-            PropagationErrorKind::Range,
-            format!("`{name}`: the higher-order terms are not finite at the input estimates"),
-            None,
-        ));
-    }
-    let mut total = (uc / scale) * (uc / scale);
-    for &(b, a, c) in &terms {
-        let (b, a, c) = (b / scale, a / scale, c / scale);
-        total += 0.5 * a * a + b * c;
-    }
-    if total < 0.0 {
-        return Err(perr_of(
-            PropagationErrorKind::Method,
-            format!("`{name}`: the higher-order terms make the variance negative; the model is too far from linear for this approximation"),
-            None,
-        ));
-    }
-    Ok(scale * total.sqrt())
-}
+mod parts;
+use parts::*;
