@@ -725,7 +725,13 @@ impl Run<'_> {
             .max(10_000)
             .div_ceil(BLOCK)
             * BLOCK;
-        let max_seq = (max / per).max(2);
+        // The cap is also what the memory allows: a run that does not
+        // settle ends there with its record saying so, instead of failing
+        // for want of memory after all its work.
+        let per_trial = 8 * (m as u64 + 2);
+        let fixed = memory_needed(model, 0, self.threads);
+        let affordable = (self.cap.saturating_sub(fixed) / per_trial) as usize;
+        let max_seq = (max / per).min(affordable / per).max(2);
         self.check_memory(per * max_seq.min(2))?;
         let mut outs: Vec<Vec<f64>> = Vec::new();
         let mut block_moments: Vec<Moments> = Vec::new();
