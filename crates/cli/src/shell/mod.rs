@@ -407,16 +407,19 @@ impl Shell {
         }
     }
 
+    /// The evaluated part behind the result `name`, and the result's index
+    /// in its report.
+    fn result_of(&mut self, name: &str) -> Option<(session::Part, usize)> {
+        let part = self.result_part(name)?;
+        let j = part.report.results.iter().position(|r| r.name == name)?;
+        Some((part, j))
+    }
+
     fn budget(&mut self, name: &str) {
-        let Some(part) = self.result_part(name) else {
+        let Some((part, j)) = self.result_of(name) else {
             return;
         };
-        let r = part
-            .report
-            .results
-            .iter()
-            .find(|r| r.name == name)
-            .expect("evaluated");
+        let r = &part.report.results[j];
         let mut one = part.report.clone();
         one.results = vec![r.clone()];
         one.fits.clear();
@@ -425,15 +428,10 @@ impl Shell {
     }
 
     fn sensitivities(&mut self, name: &str) {
-        let Some(part) = self.result_part(name) else {
+        let Some((part, j)) = self.result_of(name) else {
             return;
         };
-        let r = part
-            .report
-            .results
-            .iter()
-            .find(|r| r.name == name)
-            .expect("evaluated");
+        let r = &part.report.results[j];
         let lines: Vec<String> = r
             .budget
             .iter()

@@ -78,15 +78,7 @@ impl Doc<'_> {
 
 pub(super) type Result<T, E = ModelError> = std::result::Result<T, E>;
 
-pub(super) fn join(path: &str, key: &str) -> String {
-    if path.is_empty() {
-        key.to_string()
-    } else if key.is_empty() {
-        path.to_string()
-    } else {
-        format!("{path}.{key}")
-    }
-}
+pub(super) use crate::validate::join;
 
 pub(super) fn type_name(v: &DeValue) -> &'static str {
     match v {
