@@ -425,3 +425,22 @@ fn model_errors_carry_their_kind() {
         K::Value
     );
 }
+
+/// An input built without its value is named as such, not as a NaN.
+#[test]
+fn a_builder_input_without_a_value_says_so() {
+    let e = ModelBuilder::new()
+        .input("x", |i| i.standard_uncertainty(0.1))
+        .measurand("y", "x", None)
+        .build()
+        .unwrap_err();
+    assert_eq!(e.path, "inputs.x.value");
+    assert!(e.message.contains("`x` needs a value"), "{e}");
+    // Observations and constants carry their own value.
+    assert!(ModelBuilder::new()
+        .input("o", |i| i.observations(&[1.0, 1.1, 0.9]))
+        .input("c", |i| i.constant("c"))
+        .measurand("y", "o*c", None)
+        .build()
+        .is_ok());
+}

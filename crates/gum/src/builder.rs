@@ -146,6 +146,8 @@ impl InputBuilder {
 #[derive(Clone, Debug, Default)]
 pub struct ModelBuilder {
     description: ModelDescription,
+    /// Inputs given no value where their evaluation needs one.
+    without_value: Vec<String>,
 }
 
 impl ModelBuilder {
@@ -165,9 +167,15 @@ impl ModelBuilder {
     }
     /// An input, described by `f`.
     pub fn input(mut self, name: &str, f: impl FnOnce(InputBuilder) -> InputBuilder) -> Self {
-        self.description
-            .inputs
-            .push(f(InputBuilder::default()).describe(name));
+        let b = f(InputBuilder::default());
+        let needs_value = !matches!(
+            b.uncertainty,
+            Some(Uncertainty::Observations(_)) | Some(Uncertainty::Constant(_))
+        );
+        if needs_value && b.value.is_none() {
+            self.without_value.push(name.to_string());
+        }
+        self.description.inputs.push(b.describe(name));
         self
     }
     /// A stated correlation coefficient.
@@ -232,6 +240,17 @@ impl ModelBuilder {
 
     /// Check the model, with the same checks as a model file's.
     pub fn build(&self) -> Result<Model, ModelError> {
+        if let Some(name) = self.without_value.first() {
+            return Err(ModelError {
+                kind: crate::ModelErrorKind::Key,
+                file: "<built model>".into(),
+                line: 0,
+                column: 0,
+                path: format!("inputs.{name}.value"),
+                message: format!("`{name}` needs a value (its estimate): give .value(...)"),
+                detail: None,
+            });
+        }
         self.description.validate()
     }
 }
