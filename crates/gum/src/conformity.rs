@@ -905,13 +905,13 @@ fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> 
 
 /// A probability for a statement, as a percentage: four significant
 /// digits, but near 100 % enough decimals to show two digits of the
-/// complement (99.99962 %, not 100 %); below 1e-15, "< 1e-13 %".
+/// complement (99.99962 %, not 100 %); below 10⁻¹⁵, "< 10⁻¹³ %".
 pub fn probability(p: f64) -> String {
     if p.is_nan() {
         return "not available".into();
     }
     if p < 1e-15 {
-        return "< 1e-13 %".into();
+        return "< 10⁻¹³ %".into();
     }
     if p > 1.0 - 1e-15 {
         return "> 99.9999999999999 %".into();
