@@ -165,7 +165,9 @@ fn no_human_readable_number_has_an_e_exponent() {
                 "title = \"grid\"\n[inputs.x]\nvalue = {x}\nstandard_uncertainty = {u}\n\
                  [inputs.y]\nvalue = 2.5\nstandard_uncertainty = 0.01\n\
                  [[measurands]]\nname = \"p\"\nformula = \"x*y\"\n\
-                 [[measurands]]\nname = \"q\"\nformula = \"x/y\"\n"
+                 [measurands.specification]\nlower = 0.0\nupper = 1e{}\n\
+                 [[measurands]]\nname = \"q\"\nformula = \"x/y\"\n",
+                exp + 1
             ),
         );
         for format in ["text", "markdown"] {
