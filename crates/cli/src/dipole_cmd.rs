@@ -83,7 +83,12 @@ fn solve(
     };
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = report_dir {
-        let files = crate::files::write_report(dir, force, &rep, mc.as_ref(), &[], style)?;
+        let mut settings = vec![("Monte Carlo trials".to_string(), trials.to_string())];
+        if let Some(m) = &mc {
+            settings.push(("Monte Carlo seed".into(), m.seed.to_string()));
+        }
+        let record = crate::record::Record::new(inputs, settings, None, None);
+        let files = crate::files::write_report(dir, force, &rep, mc.as_ref(), &[], style, &record)?;
         crate::say_written(matches!(format, Format::Text), out, err, dir, &files);
     }
     Ok(())

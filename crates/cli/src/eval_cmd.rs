@@ -56,6 +56,12 @@ pub struct EvalArgs {
     /// Also write a report folder: HTML, Markdown, CSV, JSON and SVG plots
     #[arg(long, value_name = "DIR")]
     report: Option<PathBuf>,
+    /// Who evaluated: named in the report's record (blank for signing otherwise)
+    #[arg(long, value_name = "NAME")]
+    evaluated_by: Option<String>,
+    /// Who checked the evaluation: named in the report's record
+    #[arg(long, value_name = "NAME")]
+    checked_by: Option<String>,
     /// Replace the report files in an existing, non-empty report folder
     #[arg(long)]
     force: bool,
@@ -165,10 +171,57 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
         let mut inputs = vec![a.file.clone()];
         inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
         crate::files::check_report_folder(dir, a.force, &inputs)?;
-        let files = crate::files::write_report(dir, a.force, &report, mc.as_ref(), &[], style)?;
+        let record = crate::record::Record::new(
+            &inputs,
+            eval_settings(a, &model, mc.as_ref()),
+            a.evaluated_by.clone(),
+            a.checked_by.clone(),
+        );
+        let files =
+            crate::files::write_report(dir, a.force, &report, mc.as_ref(), &[], style, &record)?;
         crate::say_written(matches!(a.format, Format::Text), out, err, dir, &files);
     }
     Ok(())
+}
+
+/// The settings of an evaluation, as its record states them.
+fn eval_settings(
+    a: &EvalArgs,
+    model: &Model,
+    mc: Option<&incertus_mc::McReport>,
+) -> Vec<(String, String)> {
+    let mut s = vec![
+        (
+            "coverage probability p".to_string(),
+            format!("{}", a.coverage.unwrap_or(model.coverage_probability)),
+        ),
+        (
+            "effective dof rounding".to_string(),
+            match model.dof_rounding {
+                incertus_gum::DofRounding::Truncate => "truncate".into(),
+                incertus_gum::DofRounding::Exact => "exact".into(),
+            },
+        ),
+        ("significant digits of u".to_string(), a.digits.to_string()),
+        (
+            "higher-order terms".to_string(),
+            if a.second_order { "yes" } else { "no" }.into(),
+        ),
+    ];
+    if let Some(mc) = mc {
+        s.push(("Monte Carlo trials".into(), mc.trials.to_string()));
+        s.push(("Monte Carlo seed".into(), mc.seed.to_string()));
+        if let Some(ad) = &mc.adaptive {
+            s.push((
+                "adaptive procedure".into(),
+                format!(
+                    "ndig = {}, {} sequences of {}",
+                    ad.ndig, ad.sequences, ad.trials_per_sequence
+                ),
+            ));
+        }
+    }
+    s
 }
 
 pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {

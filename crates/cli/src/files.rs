@@ -626,6 +626,7 @@ pub fn write_report(
     mc: Option<&McReport>,
     extra_fits: &[(String, String, String, FitResult)],
     style: Style,
+    record: &crate::record::Record,
 ) -> Result<Vec<String>, Failure> {
     check_report_folder(dir, force, &[])?;
     let mut files: Vec<(String, String)> = Vec::new();
@@ -637,7 +638,7 @@ pub fn write_report(
     let si = report::with_si_units(report);
     let text = report::text(&si, style, mc);
     let md = report::markdown(&si, style, mc);
-    let json = report::json(report, mc);
+    let json = with_record(&report::json(report, mc), record);
     let csv = report::csv(report);
     let title = report
         .title
@@ -678,7 +679,9 @@ pub fn write_report(
     }
     html.push_str("<h2>Inputs, budget and result</h2>\n<pre>");
     html.push_str(&esc(&text));
-    html.push_str("</pre>\n<h2>Plots</h2>\n");
+    html.push_str("</pre>\n");
+    html.push_str(&record.html(esc));
+    html.push_str("<h2>Plots</h2>\n");
     for n in &not_drawn {
         html.push_str(&format!("<p>Not drawn: {}</p>\n", esc(n)));
     }
@@ -692,7 +695,10 @@ pub fn write_report(
     }
     html.push_str("</body>\n</html>\n");
     files.push(("report.html".into(), html));
-    files.push(("report.md".into(), md));
+    files.push((
+        "report.md".into(),
+        format!("{md}\n{}", record.markdown(report::md_escape)),
+    ));
     files.push(("budget.csv".into(), csv));
     files.push(("result.json".into(), json));
     for (file, _, svg) in plots {
@@ -707,6 +713,20 @@ pub fn write_report(
     let mut written: Vec<String> = files.into_iter().map(|(name, _)| name).collect();
     written.extend(not_drawn.iter().map(|n| format!("(not drawn: {n})")));
     Ok(written)
+}
+
+/// The JSON report with the record of the evaluation added.
+fn with_record(json: &str, record: &crate::record::Record) -> String {
+    match serde_json::from_str::<serde_json::Value>(json) {
+        Ok(serde_json::Value::Object(mut o)) => {
+            o.insert("record".into(), record.json());
+            let mut s =
+                serde_json::to_string_pretty(&serde_json::Value::Object(o)).expect("plain data");
+            s.push('\n');
+            s
+        }
+        _ => json.to_string(),
+    }
 }
 
 /// Whether a report may be written to `dir`, checked before any work: a

@@ -43,6 +43,12 @@ pub struct FitArgs {
     /// For a weighted fit, multiply the covariance by χ²/ν (the stated u(y) are then relative only)
     #[arg(long)]
     scale_by_chi_squared: bool,
+    /// Who evaluated: named in the report's record (blank for signing otherwise)
+    #[arg(long, value_name = "NAME")]
+    evaluated_by: Option<String>,
+    /// Who checked the evaluation: named in the report's record
+    #[arg(long, value_name = "NAME")]
+    checked_by: Option<String>,
     /// Output format
     #[arg(long, value_enum, default_value_t = FitFormat::Text)]
     format: FitFormat,
@@ -167,6 +173,15 @@ pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), 
             None,
             &[],
             crate::report::Style { digits: 2 },
+            &crate::record::Record::new(
+                std::slice::from_ref(&a.file),
+                vec![
+                    ("degree".into(), a.degree.to_string()),
+                    ("excluded rows".into(), format!("{:?}", a.exclude)),
+                ],
+                a.evaluated_by.clone(),
+                a.checked_by.clone(),
+            ),
         )?;
         crate::say_written(matches!(a.format, FitFormat::Text), out, err, dir, &files);
     }

@@ -17,6 +17,7 @@ mod dipole_cmd;
 mod eval_cmd;
 pub mod files;
 mod fit_cmd;
+pub mod record;
 pub mod report;
 mod shell;
 pub mod terminal;
@@ -201,6 +202,13 @@ where
     // terminal raw (`terminal`).
     let (mut out, mut err) = (terminal::Visible(out), terminal::Visible(err));
     let (out, err): (&mut dyn Write, &mut dyn Write) = (&mut out, &mut err);
+    let args: Vec<OsString> = args.into_iter().map(Into::into).collect();
+    record::set_command(
+        &args
+            .iter()
+            .map(|a| a.to_string_lossy().into_owned())
+            .collect::<Vec<_>>(),
+    );
     let cli = match Cli::try_parse_from(args) {
         Ok(c) => c,
         Err(e) => {

@@ -742,7 +742,7 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
 
 /// Text from a file as Markdown shows it literally: table bars, emphasis,
 /// headings, links and raw HTML escaped.
-fn md_escape(s: &str) -> String {
+pub(crate) fn md_escape(s: &str) -> String {
     let mut out = String::with_capacity(s.len());
     for c in s.chars() {
         match c {
