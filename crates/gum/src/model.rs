@@ -227,6 +227,23 @@ pub struct Input {
     pub line: usize,
 }
 
+/// `v` rounded to the place of the 15th significant digit of `held` (the
+/// magnitude whose digits `v` was computed from); finite values only.
+fn to_digits_of(v: f64, held: f64) -> f64 {
+    if !v.is_finite() || !held.is_finite() || held == 0.0 || v == 0.0 {
+        return v;
+    }
+    let decimals = 14 - held.log10().floor() as i32;
+    if decimals >= 0 {
+        format!("{v:.*}", decimals.min(340) as usize)
+            .parse()
+            .unwrap_or(v)
+    } else {
+        let step = 10f64.powi(-decimals);
+        (v / step).round() * step
+    }
+}
+
 /// Conversion from coherent SI back to a quantity's own unit (identity when
 /// it has none): values with the offset, uncertainties by the factor.
 fn shown_value(unit: Option<&incertus_units::Unit>, v: f64) -> f64 {
@@ -245,10 +262,22 @@ impl Input {
 
     /// The estimate and standard uncertainty in the input's own unit.
     pub fn shown(&self) -> (f64, f64) {
-        (
+        let (v, u) = (
             shown_value(self.unit_si.as_ref(), self.estimate),
             self.standard_uncertainty / self.unit_factor(),
-        )
+        );
+        match &self.unit_si {
+            // Converted to SI and back: rounded to the 15 significant digits
+            // (DBL_DIG) that the SI value holds, which every f64 keeps, so
+            // `20.075 °C` reads back as 20.075, not 20.074999999999989 (for
+            // an offset the digits are those of the SI value: 0.1 °C is
+            // 273.25 K, good to 12 decimals).
+            Some(unit) if unit.factor != 1.0 || unit.offset != 0.0 => {
+                let held = (self.estimate / unit.factor).abs().max(v.abs());
+                (to_digits_of(v, held), to_digits_of(u, u.abs()))
+            }
+            _ => (v, u),
+        }
     }
 }
 
