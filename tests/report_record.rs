@@ -98,3 +98,44 @@ fn a_report_records_its_files_settings_and_people() {
         assert!(t.contains("Evaluated by: ____"), "a blank for signing");
     }
 }
+
+/// `results.csv`: one row per measurand that another program can read, the
+/// numbers equal to `result.json`'s to the last bit.
+#[test]
+fn results_csv_has_one_row_per_measurand() {
+    let dir = scratch("results_csv").join("r");
+    let (code, _, err) = incertus(&[
+        "eval",
+        "examples/models/vessel.toml",
+        "--report",
+        dir.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let csv = std::fs::read_to_string(dir.join("results.csv")).unwrap();
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let row: Vec<&str> = lines.next().unwrap().split(',').collect();
+    assert!(lines.next().is_none());
+    assert_eq!(header.len(), row.len());
+    let col = |name: &str| row[header.iter().position(|h| *h == name).unwrap()];
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("result.json")).unwrap()).unwrap();
+    let r = &json["results"][0];
+    assert_eq!(col("measurand"), "V");
+    assert_eq!(col("unit"), "mm^3");
+    for (c, j) in [
+        ("estimate", &r["reported"]["value"]),
+        (
+            "standard_uncertainty",
+            &r["reported"]["standard_uncertainty"],
+        ),
+        (
+            "expanded_uncertainty",
+            &r["reported"]["expanded_uncertainty"],
+        ),
+        ("coverage_factor", &r["coverage_factor"]),
+    ] {
+        assert_eq!(col(c).parse::<f64>().unwrap(), j.as_f64().unwrap(), "{c}");
+    }
+    assert_eq!(col("method"), "first order");
+}

@@ -58,7 +58,7 @@ pub(crate) fn is_report_file(name: &str) -> bool {
     ];
     matches!(
         name,
-        "report.html" | "report.md" | "budget.csv" | "result.json"
+        "report.html" | "report.md" | "budget.csv" | "results.csv" | "result.json"
     ) || (name.ends_with(".svg") && PLOTS.iter().any(|p| name.starts_with(p)))
         || (name.starts_with('.') && name.contains(".tmp-"))
 }

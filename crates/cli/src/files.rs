@@ -700,6 +700,7 @@ pub fn write_report(
         format!("{md}\n{}", record.markdown(report::md_escape)),
     ));
     files.push(("budget.csv".into(), csv));
+    files.push(("results.csv".into(), report::results_csv(report)));
     files.push(("result.json".into(), json));
     for (file, _, svg) in plots {
         files.push((file, svg));

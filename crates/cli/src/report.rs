@@ -889,6 +889,79 @@ fn opt(v: Option<f64>) -> String {
     v.map(|x| format!("{x:e}")).unwrap_or_default()
 }
 
+/// A number for a table another program reads: every digit of the f64 in
+/// its shortest form, with an exponent only far from 1 (`2830628.82…`,
+/// `1.6e-5`).
+fn table_number(v: f64) -> String {
+    if v == 0.0 || (v.abs() >= 1e-4 && v.abs() < 1e15) {
+        format!("{v}")
+    } else {
+        format!("{v:e}")
+    }
+}
+
+/// One row per measurand for other programs (`results.csv`): the reported
+/// result with its unit, u, U, k, p, ν_eff and method, the first-order and
+/// Monte Carlo figures, and the conformity verdict. UTF-8, a header row,
+/// full precision; an empty ν_eff means infinite (or, with k, that the
+/// Monte Carlo result is reported).
+pub fn results_csv(report: &Report) -> String {
+    let mut out = String::from(
+        "measurand,unit,estimate,standard_uncertainty,expanded_uncertainty,coverage_factor,\
+         coverage_probability,effective_dof,method,interval_lower,interval_upper,\
+         first_order_estimate,first_order_standard_uncertainty,monte_carlo_standard_uncertainty,\
+         monte_carlo_symmetric_lower,monte_carlo_symmetric_upper,monte_carlo_shortest_lower,\
+         monte_carlo_shortest_upper,verdict\n",
+    );
+    for r in &report.results {
+        let rep = &r.reported;
+        let mc = r.monte_carlo.as_ref();
+        let mcf = |f: &dyn Fn(&incertus_gum::distributions::McMeasurand) -> f64| {
+            mc.map(|m| table_number(f(m))).unwrap_or_default()
+        };
+        let fields = [
+            csv_field(&r.name),
+            csv_field(r.unit.as_deref().unwrap_or("")),
+            table_number(rep.value),
+            table_number(rep.standard_uncertainty),
+            table_number(rep.expanded_uncertainty),
+            // k and ν_eff belong to the first-order result; a Monte Carlo
+            // interval comes from the distribution of the trials.
+            match rep.method {
+                incertus_gum::Method::FirstOrder => table_number(r.coverage_factor),
+                _ => String::new(),
+            },
+            table_number(rep.coverage_probability),
+            match rep.method {
+                incertus_gum::Method::FirstOrder => {
+                    r.effective_dof_used.map(table_number).unwrap_or_default()
+                }
+                _ => String::new(),
+            },
+            match rep.method {
+                incertus_gum::Method::FirstOrder => "first order".into(),
+                incertus_gum::Method::MonteCarlo => "Monte Carlo".into(),
+            },
+            table_number(rep.coverage_interval[0]),
+            table_number(rep.coverage_interval[1]),
+            table_number(r.value),
+            table_number(r.standard_uncertainty),
+            mcf(&|m| m.standard_uncertainty),
+            mcf(&|m| m.symmetric_interval[0]),
+            mcf(&|m| m.symmetric_interval[1]),
+            mcf(&|m| m.shortest_interval[0]),
+            mcf(&|m| m.shortest_interval[1]),
+            r.conformity
+                .as_ref()
+                .map(|c| c.verdict.to_string())
+                .unwrap_or_default(),
+        ];
+        out.push_str(&fields.join(","));
+        out.push('\n');
+    }
+    out
+}
+
 /// The budgets as CSV (full precision; an empty dof means infinite).
 pub fn csv(report: &Report) -> String {
     let mut out = String::from(
