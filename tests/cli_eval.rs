@@ -94,9 +94,12 @@ fn markdown_csv_coverage_and_second_order() {
     let mut lines = out.lines();
     assert_eq!(
         lines.next().unwrap(),
-        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share"
+        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share,unit"
     );
     assert!(out.contains("V,correlation,d h,"));
+    // Units: the input's own, the covariance term's as the square of y's.
+    assert!(out.contains(",mm\n"), "{out}");
+    assert!(out.contains(",(mm^3)^2\n"), "{out}");
     let (code, out, _) = incertus(&["eval", VESSEL, "--format", "json", "--coverage", "0.99"]);
     assert_eq!(code, 0);
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();

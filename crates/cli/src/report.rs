@@ -965,7 +965,7 @@ pub fn results_csv(report: &Report) -> String {
 /// The budgets as CSV (full precision; an empty dof means infinite).
 pub fn csv(report: &Report) -> String {
     let mut out = String::from(
-        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share\n",
+        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share,unit\n",
     );
     for r in &report.results {
         // The reported result first (full precision), with its unit and method.
@@ -1004,11 +1004,12 @@ pub fn csv(report: &Report) -> String {
             ("effective_dof", opt(r.effective_dof_used)),
         ];
         for (what, v) in rows {
-            let mut fields = vec![String::new(); 12];
+            let mut fields = vec![String::new(); 13];
             fields[0] = csv_field(&r.name);
             fields[1] = "result".into();
             fields[2] = what.into();
             fields[3] = v;
+            fields[12] = csv_field(r.unit.as_deref().unwrap_or(""));
             out.push_str(&fields.join(","));
             out.push('\n');
         }
@@ -1026,6 +1027,9 @@ pub fn csv(report: &Report) -> String {
                 csv_field(&b.sensitivity_formula),
                 format!("{:e}", b.contribution),
                 format!("{:e}", b.share),
+                // The input's own unit (value, u); the contribution is in
+                // the measurand's.
+                csv_field(b.unit.as_deref().unwrap_or("")),
             ];
             out.push_str(&fields.join(","));
             out.push('\n');
@@ -1044,6 +1048,13 @@ pub fn csv(report: &Report) -> String {
                 String::new(),
                 format!("{:e}", c.term),
                 format!("{:e}", c.share),
+                // The covariance term is in the square of the measurand's unit.
+                csv_field(
+                    &r.unit
+                        .as_deref()
+                        .map(|u| format!("({u})^2"))
+                        .unwrap_or_default(),
+                ),
             ];
             out.push_str(&fields.join(","));
             out.push('\n');
