@@ -353,17 +353,7 @@ fn a_bad_byte_is_an_error_with_its_line_and_the_script_goes_on() {
     let mut script = b"x = 2.0 u=0.1\ny = caf".to_vec();
     script.push(0xE9); // Latin-1 é
     script.extend_from_slice(b" = 3\nz = x*2\nsave after.toml\n");
-    let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
-        .arg("shell")
-        .env("INCERTUS_HOME", dir.join("home"))
-        .current_dir(&dir)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    child.stdin.take().unwrap().write_all(&script).unwrap();
-    let out = child.wait_with_output().unwrap();
+    let out = common::shell_bytes(&dir, &script);
     let stdout = String::from_utf8_lossy(&out.stdout);
     assert_eq!(out.status.code(), Some(1), "{stdout}");
     assert!(

@@ -6,9 +6,6 @@
 mod common;
 use common::{incertus, scratch, write};
 
-use std::io::Write;
-use std::process::{Command, Stdio};
-
 fn raw_controls(s: &str) -> Vec<char> {
     s.chars()
         .filter(|c| (c.is_control() && *c != '\n' && *c != '\t') || *c == '\u{7f}')
@@ -51,22 +48,7 @@ fn control_characters_from_files_are_shown_escaped() {
 #[test]
 fn control_characters_from_shell_statements_are_shown_escaped() {
     let dir = scratch("term_shell");
-    let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
-        .arg("shell")
-        .env("INCERTUS_HOME", dir.join("home"))
-        .current_dir(&dir)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(b"x = 1 u=0.1\n\x1b[2Jy = 2\nz = x \x1b]0;t\x07\n")
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
+    let out = common::shell_bytes(&dir, b"x = 1 u=0.1\n\x1b[2Jy = 2\nz = x \x1b]0;t\x07\n");
     let stdout = String::from_utf8_lossy(&out.stdout);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(raw_controls(&stdout).is_empty(), "{stdout:?}");

@@ -31,3 +31,25 @@ pub fn write(dir: &Path, file: &str, text: &str) -> PathBuf {
     std::fs::write(&p, text).expect("the temporary directory is writable");
     p
 }
+
+/// Run `incertus shell` in `dir` (its home `dir/home`) with `script` piped
+/// in as bytes, which need not be UTF-8.
+pub fn shell_bytes(dir: &Path, script: &[u8]) -> std::process::Output {
+    use std::io::Write;
+    let mut child = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .arg("shell")
+        .env("INCERTUS_HOME", dir.join("home"))
+        .current_dir(dir)
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("the binary runs");
+    child
+        .stdin
+        .take()
+        .expect("piped")
+        .write_all(script)
+        .expect("the script is taken");
+    child.wait_with_output().expect("the shell ends")
+}

@@ -141,11 +141,12 @@ pub(crate) fn evaluate(
 pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
     let settings = mc_settings(a)?;
+    // The files this evaluation reads: the model and its fits' data.
+    let mut inputs = vec![a.file.clone()];
+    inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
     if let Some(dir) = &a.report {
         // Before any work: the folder must be free, or hold an earlier
-        // report and none of this model's files.
-        let mut inputs = vec![a.file.clone()];
-        inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
+        // report and none of these files.
         crate::files::check_report_folder(dir, a.force, &inputs)?;
     }
     let mut report = evaluate(&a.file, &model, a.coverage, a.second_order)?;
@@ -168,9 +169,6 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
     };
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = &a.report {
-        let mut inputs = vec![a.file.clone()];
-        inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
-        crate::files::check_report_folder(dir, a.force, &inputs)?;
         let record = crate::record::Record::new(
             &inputs,
             eval_settings(a, &model, mc.as_ref()),

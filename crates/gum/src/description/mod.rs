@@ -381,21 +381,6 @@ impl InputDescription {
         self.unit = Some(unit.to_string());
         self
     }
-
-    /// The estimate as stated, when the evaluation states one.
-    pub fn stated_value(&self) -> Option<f64> {
-        match &self.evaluation {
-            InputEvaluation::Exact { value }
-            | InputEvaluation::Standard { value, .. }
-            | InputEvaluation::Expanded { value, .. }
-            | InputEvaluation::Exponential { value, .. }
-            | InputEvaluation::Limits {
-                limits: LimitsGiven::HalfWidth { value, .. },
-                ..
-            } => Some(*value),
-            _ => None,
-        }
-    }
 }
 
 impl MeasurandDescription {

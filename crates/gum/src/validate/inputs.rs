@@ -127,7 +127,7 @@ impl Validator<'_, '_> {
                 input.distribution = self.centred(path, *shape, input.dof)?;
             }
             InputEvaluation::Limits { limits, shape, dof } => {
-                let (estimate, dist) = self.limits(d, path, limits, shape)?;
+                let (estimate, dist) = self.limits(path, limits, shape)?;
                 input.dof = self.stated_dof(path, *dof)?;
                 input.estimate = estimate;
                 input.standard_uncertainty = dist
@@ -185,7 +185,6 @@ impl Validator<'_, '_> {
 
     fn limits(
         &self,
-        d: &InputDescription,
         path: &str,
         limits: &LimitsGiven,
         shape: &LimitShape,
@@ -231,7 +230,6 @@ impl Validator<'_, '_> {
                 (mid, 0.5 * (upper - lower))
             }
         };
-        let _ = d;
         let dist = match *shape {
             LimitShape::Rectangular => Distribution::Rectangular { half_width },
             LimitShape::Triangular => Distribution::Triangular { half_width },

@@ -64,8 +64,8 @@ impl Validator<'_, '_> {
             self.check_dimensions(inputs, &mut out, &index)?;
         }
         for (i, input) in d.inputs.iter().enumerate() {
-            for (k, s) in input.sensitivity.iter().enumerate() {
-                let stated = self.sensitivity(&input.name, s, k, inputs, &out)?;
+            for s in &input.sensitivity {
+                let stated = self.sensitivity(&input.name, s, inputs, &out)?;
                 inputs[i].stated_sensitivities.push(stated);
             }
         }
@@ -192,7 +192,6 @@ impl Validator<'_, '_> {
         &self,
         input: &str,
         s: &StatedCoefficient,
-        k: usize,
         inputs: &[Input],
         measurands: &[Measurand],
     ) -> Result<(String, StatedSensitivity)> {
@@ -201,7 +200,6 @@ impl Validator<'_, '_> {
             Some(m) => join(&base, m),
             None => base.clone(),
         };
-        let _ = k;
         let measurand = match &s.measurand {
             Some(m) => {
                 if !measurands.iter().any(|x| &x.name == m) {
