@@ -46,7 +46,7 @@ fn every_format_carries_the_assessment() {
         md.contains("**Conformity statement.** Decision rule: guarded acceptance"),
         "{md}"
     );
-    let (code, csv, _) = incertus(&["eval", PIPETTE, "--format", "csv"]);
+    let (code, csv, _) = incertus(&["eval", PIPETTE, "--format", "budget-csv"]);
     assert_eq!(code, 0);
     assert!(csv.contains("V,conformity,verdict,accepted"), "{csv}");
     assert!(
@@ -99,7 +99,8 @@ fn a_report_folder_quotes_the_statement() {
     let (code, _, err) = incertus(&["eval", PIPETTE, "--report", out_dir.to_str().unwrap()]);
     assert_eq!(code, 0, "{err}");
     let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
-    assert!(html.contains("<h2>Conformity (JCGM 106:2012)</h2>"));
+    assert!(html
+        .contains("<h2 id=\"conformity\">Conformity with the specification (JCGM 106:2012)</h2>"));
     assert!(html.contains("Decision rule: guarded acceptance"));
     assert!(html.contains("ISO/IEC 17025:2017, 7.1.3"));
     let svg = std::fs::read_to_string(out_dir.join("conformity_V.svg")).unwrap();

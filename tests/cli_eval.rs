@@ -20,7 +20,9 @@ fn text_report_is_a_budget() {
         "share of u²",
         "B, rectangular",
         "A, n = 4",
-        "r(d, h) = 0.2",
+        "correlation terms of u²(V)",
+        "unit of c",
+        "contribution u_i(V) / mm^3",
         "∂V/∂d = ",
         "effective degrees of freedom",
         "coverage factor                   k = ",
@@ -89,17 +91,31 @@ fn markdown_csv_coverage_and_second_order() {
     assert_eq!(code, 0);
     assert!(out.starts_with("# Volume of a cylindrical vessel"));
     assert!(out.contains("| quantity | estimate |"));
+    // --format csv: the results rows of results.csv.
     let (code, out, _) = incertus(&["eval", VESSEL, "--format", "csv"]);
+    assert_eq!(code, 0);
+    let mut lines = out.lines();
+    assert!(lines.next().unwrap().starts_with(
+        "measurand,unit,estimate,standard_uncertainty,expanded_uncertainty,coverage_factor,"
+    ));
+    assert!(
+        lines.next().unwrap().starts_with("V,mm^3,2830628.8"),
+        "{out}"
+    );
+    assert_eq!(lines.next(), None);
+    let (code, out, _) = incertus(&["eval", VESSEL, "--format", "budget-csv"]);
     assert_eq!(code, 0);
     let mut lines = out.lines();
     assert_eq!(
         lines.next().unwrap(),
-        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share,unit"
+        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share,unit,sensitivity_unit,contribution_unit"
     );
     assert!(out.contains("V,correlation,d h,"));
-    // Units: the input's own, the covariance term's as the square of y's.
-    assert!(out.contains(",mm\n"), "{out}");
-    assert!(out.contains(",(mm^3)^2\n"), "{out}");
+    // Units: the input's own, the coefficient's (y per x), the
+    // contribution's (y's), the covariance term's as the square of y's.
+    assert!(out.contains(",mm,mm^2,mm^3\n"), "{out}");
+    assert!(out.contains(",1/K,mm^3*K,mm^3\n"), "{out}");
+    assert!(out.contains(",mm^6\n"), "{out}");
     let (code, out, _) = incertus(&["eval", VESSEL, "--format", "json", "--coverage", "0.99"]);
     assert_eq!(code, 0);
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();

@@ -328,6 +328,7 @@ fn description() -> impl Strategy<Value = ModelDescription> {
                 let mut i = InputDescription::new(names[k], e);
                 if unit {
                     i.unit = Some("mm".into());
+                    i.source = Some(format!("certificate \"C-{k}\" of 2026-03-01,\nclause 4"));
                 }
                 d.inputs.push(i);
             }

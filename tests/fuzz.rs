@@ -342,8 +342,8 @@ fn model_target(input: &[u8]) -> Result<String, String> {
     let _ = incertus_cli::report::text(&report, style, Some(&mc));
     let _ = incertus_cli::report::markdown(&report, style, Some(&mc));
     let _ = incertus_cli::report::json(&report, Some(&mc));
-    let _ = incertus_cli::report::csv(&report);
-    let _ = incertus_cli::files::plots(&report, Some(&mc), &[]);
+    let _ = incertus_cli::tables::csv(&report);
+    let _ = incertus_cli::plots::plots(&report, Some(&mc));
     Ok(String::new())
 }
 

@@ -74,16 +74,16 @@ fn the_folder_holds_every_format_and_plot() {
     assert_eq!(urls, namespaces, "only namespace URIs");
     // What a certificate annex needs.
     for fragment in [
-        "measurement model",
+        "Measurement model",
         "A, n = 4",
-        "fit cal",
+        "Fit cal",
         "effective degrees of freedom",
         "coverage factor",
-        "rounded to 2 significant digits",
+        "2 significant digits of the uncertainty",
         "EXCLUDED: standard 8 mg/L",
         "seed 20260101",
         "validation of the first-order result",
-        "Written by incertus",
+        "Evaluation of measurement uncertainty by incertus",
     ] {
         assert!(html.contains(fragment), "report.html lacks {fragment:?}");
     }
@@ -171,8 +171,16 @@ fn fit_reports_too() {
         dir.to_str().unwrap(),
     ]);
     assert_eq!(code, 0, "{err}");
-    xml_ok(&read(&dir.join("fit_fit.svg")), "fit_fit.svg");
-    assert!(read(&dir.join("report.html")).contains("least-squares fit"));
+    xml_ok(
+        &read(&dir.join("fit_signal_against_conc.svg")),
+        "fit_signal_against_conc.svg",
+    );
+    let html = read(&dir.join("report.html"));
+    assert!(
+        html.contains("Fit signal against conc"),
+        "the caption names the fit"
+    );
+    assert!(!html.contains("Fit fit"));
 }
 
 /// Renders the report in headless Chromium (Debian's `chromium`) with a

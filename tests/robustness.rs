@@ -122,7 +122,7 @@ fn zero_estimates_through_the_binary() {
         "zero.toml",
         "[inputs.x]\nvalue = 0\nstandard_uncertainty = 0.1\ndof = 5\n[inputs.z]\nvalue = 4\nstandard_uncertainty = 0.5\n[[measurands]]\nname = \"y\"\nformula = \"x*z\"\n",
     );
-    for format in ["text", "markdown", "json", "csv"] {
+    for format in ["text", "markdown", "json", "csv", "budget-csv"] {
         let (code, out, err) = incertus(&[
             "eval",
             f.to_str().unwrap(),

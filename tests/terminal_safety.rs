@@ -23,7 +23,7 @@ fn control_characters_from_files_are_shown_escaped() {
          [inputs.x]\nvalue = 1.0\nstandard_uncertainty = 0.1\ndescription = \"d \\u001b[2J \\u009b\"\n\
          [[measurands]]\nname = \"y\"\nformula = \"2*x\"\ndescription = \"\\u001b[31mred\"\n",
     );
-    for format in ["text", "markdown", "csv", "json"] {
+    for format in ["text", "markdown", "csv", "budget-csv", "json"] {
         let (code, out, err) = incertus(&["eval", model.to_str().unwrap(), "--format", format]);
         assert_eq!(code, 0, "{err}");
         assert!(

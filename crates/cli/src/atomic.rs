@@ -60,6 +60,7 @@ pub(crate) fn is_report_file(name: &str) -> bool {
         name,
         "report.html" | "report.md" | "budget.csv" | "results.csv" | "result.json"
     ) || (name.ends_with(".svg") && PLOTS.iter().any(|p| name.starts_with(p)))
+        || (name.starts_with("fit_data_") && name.ends_with(".csv"))
         || (name.starts_with('.') && name.contains(".tmp-"))
 }
 

@@ -79,7 +79,8 @@ fn solve(
         Format::Text => report::text(&rep, style, mc.as_ref()),
         Format::Markdown => report::markdown(&report::with_si_units(&rep), style, mc.as_ref()),
         Format::Json => report::json(&rep, mc.as_ref()),
-        Format::Csv => report::csv(&rep),
+        Format::Csv => crate::tables::results_csv(&rep),
+        Format::BudgetCsv => crate::tables::csv(&rep),
     };
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = report_dir {
@@ -88,7 +89,15 @@ fn solve(
             settings.push(("Monte Carlo seed".into(), m.seed.to_string()));
         }
         let record = crate::record::Record::new(inputs, settings, None, None);
-        let files = crate::files::write_report(dir, force, &rep, mc.as_ref(), &[], style, &record)?;
+        let files = crate::files::write_report(
+            dir,
+            force,
+            &rep,
+            mc.as_ref(),
+            Some(&checked.model),
+            style,
+            &record,
+        )?;
         crate::say_written(matches!(format, Format::Text), out, err, dir, &files);
     }
     Ok(())

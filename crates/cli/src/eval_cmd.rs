@@ -12,10 +12,16 @@ use crate::Failure;
 
 #[derive(Clone, Copy, Debug, ValueEnum)]
 pub enum Format {
+    /// Aligned text for people
     Text,
+    /// Markdown (budget tables, result, conformity statement)
     Markdown,
+    /// Every figure in full precision
     Json,
+    /// One row per measurand: the table `results.csv` of a report folder
     Csv,
+    /// The budget rows: the table `budget.csv` of a report folder
+    BudgetCsv,
 }
 
 #[derive(Args, Debug)]
@@ -165,7 +171,8 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
         Format::Text => report::text(&report, style, mc.as_ref()),
         Format::Markdown => report::markdown(&report::with_si_units(&report), style, mc.as_ref()),
         Format::Json => report::json(&report, mc.as_ref()),
-        Format::Csv => report::csv(&report),
+        Format::Csv => crate::tables::results_csv(&report),
+        Format::BudgetCsv => crate::tables::csv(&report),
     };
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = &a.report {
@@ -175,8 +182,15 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
             a.evaluated_by.clone(),
             a.checked_by.clone(),
         );
-        let files =
-            crate::files::write_report(dir, a.force, &report, mc.as_ref(), &[], style, &record)?;
+        let files = crate::files::write_report(
+            dir,
+            a.force,
+            &report,
+            mc.as_ref(),
+            Some(&model),
+            style,
+            &record,
+        )?;
         crate::say_written(matches!(a.format, Format::Text), out, err, dir, &files);
     }
     Ok(())

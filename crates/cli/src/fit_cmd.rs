@@ -43,6 +43,15 @@ pub struct FitArgs {
     /// For a weighted fit, multiply the covariance by χ²/ν (the stated u(y) are then relative only)
     #[arg(long)]
     scale_by_chi_squared: bool,
+    /// Unit of the x column (for the report's tables and plot axes), e.g. mg/L
+    #[arg(long, value_name = "UNIT")]
+    x_unit: Option<String>,
+    /// Unit of the y column, e.g. mV
+    #[arg(long, value_name = "UNIT")]
+    y_unit: Option<String>,
+    /// A name for the fit in the report (default: "Y against X")
+    #[arg(long, value_name = "NAME")]
+    name: Option<String>,
     /// Who evaluated: named in the report's record (blank for signing otherwise)
     #[arg(long, value_name = "NAME")]
     evaluated_by: Option<String>,
@@ -77,6 +86,17 @@ pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), 
             "--exclude-reason is blank: write why the points are excluded (the audit trail records it)",
         ));
     }
+    for (what, u) in [("--x-unit", &a.x_unit), ("--y-unit", &a.y_unit)] {
+        if let Some(u) = u {
+            if let Err(e) = incertus_units::parse(u) {
+                return Err(Failure::input(format!("{what}: {}", e.render(u))));
+            }
+        }
+    }
+    let fit_name = a
+        .name
+        .clone()
+        .unwrap_or_else(|| format!("{} against {}", a.y, a.x));
     let mut names = vec![a.x.as_str(), a.y.as_str()];
     if let Some(u) = &a.y_uncertainty {
         names.push(u);
@@ -119,39 +139,19 @@ pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), 
             s.push('\n');
             s
         }
-        FitFormat::Csv => {
-            let mut s = String::from(
-                "row,x,y,residual,standardized_residual,studentized_residual,leverage,cooks_distance,flagged,excluded\n",
-            );
-            for p in &result.points {
-                s.push_str(&format!(
-                    "{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{}\n",
-                    p.row,
-                    p.x,
-                    p.y,
-                    p.residual,
-                    p.standardized_residual,
-                    p.studentized_residual,
-                    p.leverage,
-                    p.cooks_distance,
-                    p.flagged,
-                    p.excluded
-                ));
-            }
-            s
-        }
+        FitFormat::Csv => crate::tables::fit_data_csv(&result),
     };
     let _ = out.write_all(text.as_bytes());
     if let Some(dir) = &a.report {
         let empty = incertus_gum::Report {
-            title: Some(format!("Least-squares fit of {} against {}", a.y, a.x)),
+            title: Some(format!("Least-squares fit: {fit_name}")),
             fits: vec![incertus_gum::model::NamedFit {
-                name: "fit".into(),
+                name: fit_name.clone(),
                 data: a.file.display().to_string(),
                 x: a.x.clone(),
                 y: a.y.clone(),
-                x_unit: None,
-                y_unit: None,
+                x_unit: a.x_unit.clone(),
+                y_unit: a.y_unit.clone(),
                 result: result.clone(),
             }],
             results: Vec::new(),
@@ -171,14 +171,11 @@ pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), 
             a.force,
             &empty,
             None,
-            &[],
+            None,
             crate::report::Style { digits: 2 },
             &crate::record::Record::new(
                 std::slice::from_ref(&a.file),
-                vec![
-                    ("degree".into(), a.degree.to_string()),
-                    ("excluded rows".into(), format!("{:?}", a.exclude)),
-                ],
+                fit_settings(a),
                 a.evaluated_by.clone(),
                 a.checked_by.clone(),
             ),
@@ -186,4 +183,62 @@ pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), 
         crate::say_written(matches!(a.format, FitFormat::Text), out, err, dir, &files);
     }
     Ok(())
+}
+
+/// The settings of a fit, as its record states them.
+fn fit_settings(a: &FitArgs) -> Vec<(String, String)> {
+    let none = || "none".to_string();
+    vec![
+        (
+            "x column".into(),
+            format!(
+                "{}{}",
+                a.x,
+                a.x_unit
+                    .as_ref()
+                    .map(|u| format!(" ({u})"))
+                    .unwrap_or_default()
+            ),
+        ),
+        (
+            "y column".into(),
+            format!(
+                "{}{}",
+                a.y,
+                a.y_unit
+                    .as_ref()
+                    .map(|u| format!(" ({u})"))
+                    .unwrap_or_default()
+            ),
+        ),
+        (
+            "u(y) column".into(),
+            a.y_uncertainty.clone().unwrap_or_else(none),
+        ),
+        (
+            "u(x) column".into(),
+            a.x_uncertainty.clone().unwrap_or_else(none),
+        ),
+        ("degree".into(), a.degree.to_string()),
+        (
+            "excluded rows".into(),
+            if a.exclude.is_empty() {
+                none()
+            } else {
+                a.exclude
+                    .iter()
+                    .map(|r| r.to_string())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            },
+        ),
+        (
+            "reason for the exclusions".into(),
+            a.exclude_reason.clone().unwrap_or_else(none),
+        ),
+        (
+            "covariance scaled by χ²/ν".into(),
+            if a.scale_by_chi_squared { "yes" } else { "no" }.into(),
+        ),
+    ]
 }

@@ -17,9 +17,13 @@ mod dipole_cmd;
 mod eval_cmd;
 pub mod files;
 mod fit_cmd;
+mod html;
+mod html_fit;
+pub mod plots;
 pub mod record;
 pub mod report;
 mod shell;
+pub mod tables;
 pub mod terminal;
 pub use shell::run_statements;
 

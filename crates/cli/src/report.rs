@@ -40,26 +40,84 @@ fn type_text(b: &incertus_gum::BudgetLine) -> String {
     }
 }
 
-/// Rows of the budget table (header first).
-fn budget_rows(r: &MeasurandResult) -> Vec<Vec<String>> {
-    let with_units = r.budget.iter().any(|b| b.unit.is_some());
-    let mut header = vec!["quantity", "estimate"];
+/// A table shared by the text, Markdown and HTML writers: a header whose
+/// titles carry the units of their columns (`contribution u_i(V) / mm^3`,
+/// the SI Brochure's quantity/unit form for table headings), and the rows.
+#[derive(Clone, Debug, Default)]
+pub(crate) struct Table {
+    pub header: Vec<String>,
+    pub rows: Vec<Vec<String>>,
+}
+
+impl Table {
+    /// Header and rows, header first (for `aligned`).
+    pub(crate) fn all(&self) -> Vec<Vec<String>> {
+        std::iter::once(self.header.clone())
+            .chain(self.rows.iter().cloned())
+            .collect()
+    }
+}
+
+/// A unit for a header or a cell: as the SI Brochure prints it in Markdown
+/// and HTML (`si`), as written in text.
+fn shown_unit(u: &str, si: bool) -> String {
+    if si {
+        incertus_units::si_symbols(u)
+    } else {
+        u.to_string()
+    }
+}
+
+/// ` / unit` after a column title, or nothing without a unit.
+fn per_unit(u: &str, si: bool) -> String {
+    if u.is_empty() {
+        String::new()
+    } else {
+        format!(" / {}", shown_unit(u, si))
+    }
+}
+
+/// The unit of the sensitivity coefficient of `b` in the budget of `r`.
+pub fn sensitivity_unit(r: &MeasurandResult, b: &incertus_gum::BudgetLine) -> String {
+    incertus_units::quotient(
+        r.unit.as_deref().unwrap_or(""),
+        b.unit.as_deref().unwrap_or(""),
+    )
+}
+
+/// The budget of a measurand as EA-4/02 (section 6 and its examples) lays it
+/// out: quantity, estimate, standard uncertainty, distribution, sensitivity
+/// coefficient with its unit, and the contribution u_i(y) = |c_i| u(x_i) in
+/// the unit of y with its share of u²(y). Correlation terms, which are in
+/// the square of the unit of y, are in their own table
+/// (`correlation_table`).
+pub(crate) fn budget_table(r: &MeasurandResult, si: bool) -> Table {
+    let with_units = r.budget.iter().any(|b| b.unit.is_some()) || r.unit.is_some();
+    let y_unit = r.unit.as_deref().unwrap_or("");
+    let mut header: Vec<String> = vec!["quantity".into(), "estimate".into()];
     if with_units {
-        header.push("unit");
+        header.push("unit".into());
     }
     header.extend([
-        "standard uncertainty",
-        "type, distribution",
-        "dof",
-        "sensitivity coefficient",
-        "contribution",
-        "share of u²",
+        "standard uncertainty".to_string(),
+        "type, distribution".into(),
+        "dof".into(),
+        "sensitivity coefficient".into(),
     ]);
-    let mut rows = vec![header.into_iter().map(String::from).collect::<Vec<_>>()];
+    if with_units {
+        header.push("unit of c".into());
+    }
+    header.push(format!(
+        "contribution u_i({}){}",
+        r.name,
+        per_unit(y_unit, si)
+    ));
+    header.push(format!("share of u²({})", r.name));
+    let mut rows = Vec::new();
     for b in &r.budget {
         let mut row = vec![b.input.clone(), significant(b.value, 8)];
         if with_units {
-            row.push(b.unit.clone().unwrap_or_default());
+            row.push(shown_unit(b.unit.as_deref().unwrap_or(""), si));
         }
         row.extend([
             significant(b.standard_uncertainty, 5),
@@ -72,44 +130,83 @@ fn budget_rows(r: &MeasurandResult) -> Vec<Vec<String>> {
                 dof_text(b.dof)
             },
             significant(b.sensitivity, 5),
-            significant(b.contribution, 5),
-            percent(b.share),
         ]);
-        rows.push(row);
-    }
-    for c in &r.correlation_budget {
-        let mut row = vec![
-            format!(
-                "r({}, {}) = {}",
-                c.inputs[0],
-                c.inputs[1],
-                significant(c.coefficient, 4)
-            ),
-            String::new(),
-        ];
         if with_units {
-            row.push(String::new());
+            row.push(shown_unit(&sensitivity_unit(r, b), si));
         }
-        row.extend([
-            String::new(),
-            if let Some(f) = &c.from_fit {
-                format!("fit {f}")
-            } else if c.from_observations {
-                "observed together".into()
-            } else {
-                "stated".into()
-            },
-            String::new(),
-            String::new(),
-            format!(
-                "{:+}",
-                significant(c.term, 5).parse::<f64>().unwrap_or(c.term)
-            ),
-            percent(c.share),
-        ]);
+        row.extend([significant(b.contribution, 5), percent(b.share)]);
         rows.push(row);
     }
-    rows
+    Table { header, rows }
+}
+
+/// The correlation terms of u²(y), one row per correlated pair: the
+/// coefficient, where it comes from, the term 2·c_a·c_b·r·u(x_a)·u(x_b)
+/// (JCGM 100:2008, eq. (16)) in the square of the unit of y, and its share.
+/// `None` when no pair of the budget is correlated.
+pub(crate) fn correlation_table(r: &MeasurandResult, si: bool) -> Option<Table> {
+    if r.correlation_budget.is_empty() {
+        return None;
+    }
+    let sq = incertus_units::squared(r.unit.as_deref().unwrap_or(""));
+    let header = vec![
+        "correlated inputs".to_string(),
+        "r".into(),
+        "from".into(),
+        format!("term 2·c_a·c_b·r·u_a·u_b{}", per_unit(&sq, si)),
+        format!("share of u²({})", r.name),
+    ];
+    let rows = r
+        .correlation_budget
+        .iter()
+        .map(|c| {
+            vec![
+                format!("{}, {}", c.inputs[0], c.inputs[1]),
+                significant(c.coefficient, 4),
+                if let Some(f) = &c.from_fit {
+                    format!("fit {f}")
+                } else if c.from_observations {
+                    "observed together".into()
+                } else {
+                    "stated".into()
+                },
+                signed(c.term),
+                percent(c.share),
+            ]
+        })
+        .collect();
+    Some(Table { header, rows })
+}
+
+/// A number with its sign always written (`+2.4662 × 10⁵`, `-31.5`).
+fn signed(v: f64) -> String {
+    let s = significant(v, 5);
+    if v > 0.0 {
+        format!("+{s}")
+    } else {
+        s
+    }
+}
+
+/// Why shares can be negative or exceed 100 %: stated under a budget whose
+/// correlation terms are not zero.
+pub(crate) fn share_note(r: &MeasurandResult) -> Option<String> {
+    let odd = r.budget.iter().any(|b| b.share > 1.0 + 1e-12)
+        || r.correlation_budget.iter().any(|c| c.share < 0.0);
+    if r.correlation_budget.iter().all(|c| c.term == 0.0) {
+        return None;
+    }
+    Some(format!(
+        "the shares of u²({n}) add up to 100 % with the correlation terms included; {what} \
+         (JCGM 100:2008, 5.2.2: u² = Σ c_i² u_i² + Σ 2 c_i c_j u_i u_j r_ij)",
+        n = r.name,
+        what = if odd {
+            "a negative correlation term lowers u², so the other shares can exceed 100 % and \
+             a term's own share is negative"
+        } else {
+            "a positive correlation term raises u² beyond the sum of the inputs' contributions"
+        }
+    ))
 }
 
 fn aligned(rows: &[Vec<String>]) -> String {
@@ -179,15 +276,12 @@ fn rounding_line(style: Style) -> String {
     )
 }
 
-/// The lines stating a result, shared by text and Markdown.
-fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<String> {
+/// The first-order figures of a result as (label, value) pairs: estimate,
+/// u_c, higher-order u, ν_eff with its rounding, k with its distribution,
+/// U. Shared by the text, Markdown and HTML writers.
+pub(crate) fn first_order_facts(r: &MeasurandResult, report: &Report) -> Vec<(String, String)> {
     let unit = unit_suffix(r);
     let name = &r.name;
-    let u_used = r
-        .second_order_standard_uncertainty
-        .unwrap_or(r.standard_uncertainty);
-    let wu = write(r.value, u_used, style.digits);
-    let wbig = write(r.value, r.expanded_uncertainty, style.digits);
     let p = percent(r.coverage_probability);
     let dof = match (r.effective_dof, r.effective_dof_used) {
         (None, _) => "ν_eff = infinite".to_string(),
@@ -205,6 +299,135 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         }
         (Some(v), None) => format!("ν_eff = {}", significant(v, 4)),
     };
+    let mut facts = vec![
+        (
+            "estimate".to_string(),
+            format!("{name} = {}{unit}", significant(r.value, 10)),
+        ),
+        (
+            "combined standard uncertainty".into(),
+            format!(
+                "u({name}) = {}{unit}{}",
+                significant(r.standard_uncertainty, 5),
+                r.relative_standard_uncertainty
+                    .map(|x| format!("  (relative {})", significant(x, 3)))
+                    .unwrap_or_default()
+            ),
+        ),
+    ];
+    if let Some(s) = r.second_order_standard_uncertainty {
+        facts.push((
+            "with higher-order terms".into(),
+            format!(
+                "u({name}) = {}{unit}  (JCGM 100:2008, 5.1.2; used for U)",
+                significant(s, 5)
+            ),
+        ));
+    }
+    facts.push(("effective degrees of freedom".into(), dof));
+    facts.push((
+        "coverage factor".into(),
+        format!(
+            "k = {} for p = {p} ({})",
+            significant(r.coverage_factor, 4),
+            match r.effective_dof_used {
+                None => "normal distribution, ν_eff infinite".to_string(),
+                Some(v) => format!("Student's t with {} dof", significant(v, 4)),
+            }
+        ),
+    ));
+    facts.push((
+        "expanded uncertainty".into(),
+        format!(
+            "U({name}) = {}{unit}",
+            significant(r.expanded_uncertainty, 5)
+        ),
+    ));
+    facts
+}
+
+/// The reported result of a measurand in words a certificate can quote,
+/// stated once: the rounded result, what ± means (U = k u_c with k, p and
+/// ν_eff), and the method (JCGM 100:2008 or, when the first-order result
+/// was not validated, JCGM 101:2008 with its coverage interval).
+pub(crate) fn result_sentence(r: &MeasurandResult, style: Style) -> String {
+    let unit = unit_suffix(r);
+    let name = &r.name;
+    let rep = &r.reported;
+    let p = percent(rep.coverage_probability);
+    if rep.method == incertus_gum::Method::MonteCarlo {
+        let w = write(rep.value, rep.standard_uncertainty, style.digits);
+        let like = write(rep.value, rep.standard_uncertainty, style.digits + 1);
+        let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
+        return format!(
+            "{name} = {}{unit} (the standard uncertainty u in parentheses, in units of the last digits); \
+             the probabilistically symmetric coverage interval for a coverage probability of {p} is [{}, {}]{unit}. \
+             Evaluated by propagation of distributions (JCGM 101:2008) with {} trials, because {}.",
+            w.concise,
+            end(rep.coverage_interval[0]),
+            end(rep.coverage_interval[1]),
+            r.monte_carlo.as_ref().map_or(0, |m| m.trials),
+            rep.why
+        );
+    }
+    let wbig = write(r.value, r.expanded_uncertainty, style.digits);
+    let dist = match r.effective_dof_used {
+        None => "a normal distribution".to_string(),
+        Some(v) => format!(
+            "Student's t distribution with ν_eff = {} effective degrees of freedom",
+            significant(v, 4)
+        ),
+    };
+    let validated = match &r.monte_carlo {
+        Some(m) if m.validation.passed => {
+            "; propagation of distributions (JCGM 101:2008) validated it"
+        }
+        _ => "",
+    };
+    format!(
+        "{name} = {}{unit}, where the number after ± is the expanded uncertainty U = k·u_c, \
+         the combined standard uncertainty u_c multiplied by the coverage factor k = {}, which for {dist} \
+         gives a coverage probability of about {p}. Evaluated by the law of propagation of uncertainty \
+         (JCGM 100:2008){validated}.",
+        wbig.plus_minus,
+        significant(r.coverage_factor, 3)
+    )
+}
+
+/// The first-order result rounded (concise form and y ± U with k and p),
+/// for the HTML budget; marked when it is not the reported result.
+pub(crate) fn rounded_statement(r: &MeasurandResult, style: Style) -> String {
+    let u = r
+        .second_order_standard_uncertainty
+        .unwrap_or(r.standard_uncertainty);
+    let unit = unit_suffix(r);
+    format!(
+        "{name} = {}{unit} (u in parentheses); {name} = {}{unit} (U with k = {}, p = {}); {} significant digit{} of the uncertainty, the estimate to the same place (JCGM 100:2008, 7.2.6){}",
+        write(r.value, u, style.digits).concise,
+        write(r.value, r.expanded_uncertainty, style.digits).plus_minus,
+        significant(r.coverage_factor, 3),
+        percent(r.coverage_probability),
+        style.digits,
+        if style.digits == 1 { "" } else { "s" },
+        if r.reported.method == incertus_gum::Method::MonteCarlo {
+            ". NOT VALIDATED by propagation of distributions and not the reported result"
+        } else {
+            ""
+        },
+        name = r.name,
+    )
+}
+
+/// The lines stating a result, shared by text and Markdown.
+fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<String> {
+    let unit = unit_suffix(r);
+    let name = &r.name;
+    let u_used = r
+        .second_order_standard_uncertainty
+        .unwrap_or(r.standard_uncertainty);
+    let wu = write(r.value, u_used, style.digits);
+    let wbig = write(r.value, r.expanded_uncertainty, style.digits);
+    let p = percent(r.coverage_probability);
     let mut lines = Vec::new();
     if r.reported.method == incertus_gum::Method::MonteCarlo {
         lines.push(
@@ -212,38 +435,9 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
                 .to_string(),
         );
     }
-    lines.extend([
-        format!(
-            "estimate                          {name} = {}{unit}",
-            significant(r.value, 10)
-        ),
-        format!(
-            "combined standard uncertainty     u({name}) = {}{unit}{}",
-            significant(r.standard_uncertainty, 5),
-            r.relative_standard_uncertainty
-                .map(|x| format!("  (relative {})", significant(x, 3)))
-                .unwrap_or_default()
-        ),
-    ]);
-    if let Some(s) = r.second_order_standard_uncertainty {
-        lines.push(format!(
-            "with higher-order terms           u({name}) = {}{unit}  (JCGM 100:2008, 5.1.2; used for U)",
-            significant(s, 5)
-        ));
+    for (label, value) in first_order_facts(r, report) {
+        lines.push(format!("{label:<34}{value}"));
     }
-    lines.push(format!("effective degrees of freedom      {dof}"));
-    lines.push(format!(
-        "coverage factor                   k = {} for p = {p} ({})",
-        significant(r.coverage_factor, 4),
-        match r.effective_dof_used {
-            None => "normal distribution, ν_eff infinite".to_string(),
-            Some(v) => format!("Student's t with {} dof", significant(v, 4)),
-        }
-    ));
-    lines.push(format!(
-        "expanded uncertainty              U({name}) = {}{unit}",
-        significant(r.expanded_uncertainty, 5)
-    ));
     lines.push(String::new());
     let monte_carlo = r.reported.method == incertus_gum::Method::MonteCarlo;
     if monte_carlo {
@@ -637,7 +831,7 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
     lines
 }
 
-fn mc_footer(mc: &McReport) -> Vec<String> {
+pub(crate) fn mc_footer(mc: &McReport) -> Vec<String> {
     let mut lines = vec![format!(
         "Monte Carlo: {} trials in blocks of {}, seed {} ({} threads; the results do not depend on the thread count), about {} of memory",
         mc.trials,
@@ -689,7 +883,14 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
             r.name, r.formula
         ));
         out.push_str(&format!("uncertainty budget of {}\n", r.name));
-        out.push_str(&aligned(&budget_rows(r)));
+        out.push_str(&aligned(&budget_table(r, false).all()));
+        if let Some(t) = correlation_table(r, false) {
+            out.push_str(&format!("\ncorrelation terms of u²({})\n", r.name));
+            out.push_str(&aligned(&t.all()));
+        }
+        if let Some(n) = share_note(r) {
+            out.push_str(&format!("note: {n}\n"));
+        }
         out.push_str("\nsensitivity coefficients as formulas\n");
         for b in &r.budget {
             out.push_str(&format!(
@@ -759,6 +960,24 @@ pub(crate) fn md_escape(s: &str) -> String {
     out
 }
 
+pub(crate) fn md_table(out: &mut String, t: &Table) {
+    for (i, row) in t.all().iter().enumerate() {
+        out.push_str("| ");
+        out.push_str(
+            &row.iter()
+                .map(|c| md_escape(c))
+                .collect::<Vec<_>>()
+                .join(" | "),
+        );
+        out.push_str(" |\n");
+        if i == 0 {
+            out.push('|');
+            out.push_str(&row.iter().map(|_| "---|").collect::<String>());
+            out.push('\n');
+        }
+    }
+}
+
 /// The same content as Markdown.
 pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String {
     let mut out = String::new();
@@ -766,6 +985,28 @@ pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String 
         "# {}\n\n",
         md_escape(report.title.as_deref().unwrap_or("Uncertainty evaluation"))
     ));
+    if !report.results.is_empty() {
+        out.push_str("## Results\n\n");
+        for r in &report.results {
+            out.push_str(&format!(
+                "**{}**\n\n",
+                md_escape(&result_sentence(r, style))
+            ));
+        }
+    }
+    for f in &report.fits {
+        out.push_str(&format!(
+            "## Fit {}\n\n```text\n{}```\n\n",
+            md_escape(&f.name),
+            fit_text(
+                &format!(
+                    "least-squares fit `{}`: {} against {} from {}",
+                    f.name, f.y, f.x, f.data
+                ),
+                &f.result
+            )
+        ));
+    }
     for r in &report.results {
         out.push_str(&format!(
             "## {}\n\nMeasurement model: `{} = {}`\n\n",
@@ -773,21 +1014,16 @@ pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String 
             r.name,
             r.formula
         ));
-        let rows = budget_rows(r);
-        for (i, row) in rows.iter().enumerate() {
-            out.push_str("| ");
-            out.push_str(
-                &row.iter()
-                    .map(|c| md_escape(c))
-                    .collect::<Vec<_>>()
-                    .join(" | "),
-            );
-            out.push_str(" |\n");
-            if i == 0 {
-                out.push('|');
-                out.push_str(&row.iter().map(|_| "---|").collect::<String>());
-                out.push('\n');
-            }
+        md_table(&mut out, &budget_table(r, true));
+        if let Some(t) = correlation_table(r, true) {
+            out.push_str(&format!(
+                "\nCorrelation terms of u²({}):\n\n",
+                md_escape(&r.name)
+            ));
+            md_table(&mut out, &t);
+        }
+        if let Some(n) = share_note(r) {
+            out.push_str(&format!("\nNote: {}\n", md_escape(&n)));
         }
         out.push_str("\nSensitivity coefficients as formulas:\n\n");
         for b in &r.budget {
@@ -875,243 +1111,4 @@ pub fn json(report: &Report, mc: Option<&McReport>) -> String {
     let mut s = serde_json::to_string_pretty(&v).expect("a report is plain data");
     s.push('\n');
     s
-}
-
-fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
-}
-
-fn opt(v: Option<f64>) -> String {
-    v.map(|x| format!("{x:e}")).unwrap_or_default()
-}
-
-/// A number for a table another program reads: every digit of the f64 in
-/// its shortest form, with an exponent only far from 1 (`2830628.82…`,
-/// `1.6e-5`).
-fn table_number(v: f64) -> String {
-    if v == 0.0 || (v.abs() >= 1e-4 && v.abs() < 1e15) {
-        format!("{v}")
-    } else {
-        format!("{v:e}")
-    }
-}
-
-/// One row per measurand for other programs (`results.csv`): the reported
-/// result with its unit, u, U, k, p, ν_eff and method, the first-order and
-/// Monte Carlo figures, and the conformity verdict. UTF-8, a header row,
-/// full precision; an empty ν_eff means infinite (or, with k, that the
-/// Monte Carlo result is reported).
-pub fn results_csv(report: &Report) -> String {
-    let mut out = String::from(
-        "measurand,unit,estimate,standard_uncertainty,expanded_uncertainty,coverage_factor,\
-         coverage_probability,effective_dof,method,interval_lower,interval_upper,\
-         first_order_estimate,first_order_standard_uncertainty,monte_carlo_standard_uncertainty,\
-         monte_carlo_symmetric_lower,monte_carlo_symmetric_upper,monte_carlo_shortest_lower,\
-         monte_carlo_shortest_upper,verdict\n",
-    );
-    for r in &report.results {
-        let rep = &r.reported;
-        let mc = r.monte_carlo.as_ref();
-        let mcf = |f: &dyn Fn(&incertus_gum::distributions::McMeasurand) -> f64| {
-            mc.map(|m| table_number(f(m))).unwrap_or_default()
-        };
-        let fields = [
-            csv_field(&r.name),
-            csv_field(r.unit.as_deref().unwrap_or("")),
-            table_number(rep.value),
-            table_number(rep.standard_uncertainty),
-            table_number(rep.expanded_uncertainty),
-            // k and ν_eff belong to the first-order result; a Monte Carlo
-            // interval comes from the distribution of the trials.
-            match rep.method {
-                incertus_gum::Method::FirstOrder => table_number(r.coverage_factor),
-                _ => String::new(),
-            },
-            table_number(rep.coverage_probability),
-            match rep.method {
-                incertus_gum::Method::FirstOrder => {
-                    r.effective_dof_used.map(table_number).unwrap_or_default()
-                }
-                _ => String::new(),
-            },
-            match rep.method {
-                incertus_gum::Method::FirstOrder => "first order".into(),
-                incertus_gum::Method::MonteCarlo => "Monte Carlo".into(),
-            },
-            table_number(rep.coverage_interval[0]),
-            table_number(rep.coverage_interval[1]),
-            table_number(r.value),
-            table_number(r.standard_uncertainty),
-            mcf(&|m| m.standard_uncertainty),
-            mcf(&|m| m.symmetric_interval[0]),
-            mcf(&|m| m.symmetric_interval[1]),
-            mcf(&|m| m.shortest_interval[0]),
-            mcf(&|m| m.shortest_interval[1]),
-            r.conformity
-                .as_ref()
-                .map(|c| c.verdict.to_string())
-                .unwrap_or_default(),
-        ];
-        out.push_str(&fields.join(","));
-        out.push('\n');
-    }
-    out
-}
-
-/// The budgets as CSV (full precision; an empty dof means infinite).
-pub fn csv(report: &Report) -> String {
-    let mut out = String::from(
-        "measurand,kind,input,value,standard_uncertainty,dof,evaluation,distribution,sensitivity,sensitivity_formula,contribution,share,unit\n",
-    );
-    for r in &report.results {
-        // The reported result first (full precision), with its unit and method.
-        let rep = &r.reported;
-        let rows: [(&str, String); 10] = [
-            (
-                "method",
-                match rep.method {
-                    incertus_gum::Method::FirstOrder => "first_order".into(),
-                    incertus_gum::Method::MonteCarlo => "monte_carlo".into(),
-                },
-            ),
-            ("unit", csv_field(r.unit.as_deref().unwrap_or(""))),
-            ("value", format!("{:e}", rep.value)),
-            (
-                "standard_uncertainty",
-                format!("{:e}", rep.standard_uncertainty),
-            ),
-            (
-                "expanded_uncertainty",
-                format!("{:e}", rep.expanded_uncertainty),
-            ),
-            (
-                "coverage_probability",
-                format!("{:e}", rep.coverage_probability),
-            ),
-            (
-                "coverage_interval_lower",
-                format!("{:e}", rep.coverage_interval[0]),
-            ),
-            (
-                "coverage_interval_upper",
-                format!("{:e}", rep.coverage_interval[1]),
-            ),
-            ("coverage_factor", format!("{:e}", r.coverage_factor)),
-            ("effective_dof", opt(r.effective_dof_used)),
-        ];
-        for (what, v) in rows {
-            let mut fields = vec![String::new(); 13];
-            fields[0] = csv_field(&r.name);
-            fields[1] = "result".into();
-            fields[2] = what.into();
-            fields[3] = v;
-            fields[12] = csv_field(r.unit.as_deref().unwrap_or(""));
-            out.push_str(&fields.join(","));
-            out.push('\n');
-        }
-        for b in &r.budget {
-            let fields = [
-                csv_field(&r.name),
-                "input".into(),
-                csv_field(&b.input),
-                format!("{:e}", b.value),
-                format!("{:e}", b.standard_uncertainty),
-                opt(b.dof),
-                b.evaluation.to_string(),
-                b.distribution.to_string(),
-                format!("{:e}", b.sensitivity),
-                csv_field(&b.sensitivity_formula),
-                format!("{:e}", b.contribution),
-                format!("{:e}", b.share),
-                // The input's own unit (value, u); the contribution is in
-                // the measurand's.
-                csv_field(b.unit.as_deref().unwrap_or("")),
-            ];
-            out.push_str(&fields.join(","));
-            out.push('\n');
-        }
-        for c in &r.correlation_budget {
-            let fields = [
-                csv_field(&r.name),
-                "correlation".into(),
-                csv_field(&format!("{} {}", c.inputs[0], c.inputs[1])),
-                format!("{:e}", c.coefficient),
-                String::new(),
-                String::new(),
-                String::new(),
-                String::new(),
-                String::new(),
-                String::new(),
-                format!("{:e}", c.term),
-                format!("{:e}", c.share),
-                // The covariance term is in the square of the measurand's unit.
-                csv_field(
-                    &r.unit
-                        .as_deref()
-                        .map(|u| format!("({u})^2"))
-                        .unwrap_or_default(),
-                ),
-            ];
-            out.push_str(&fields.join(","));
-            out.push('\n');
-        }
-        if let Some(c) = &r.conformity {
-            for (what, v) in conformity_rows(c) {
-                let mut fields = vec![String::new(); 12];
-                fields[0] = csv_field(&r.name);
-                fields[1] = "conformity".into();
-                fields[2] = what.into();
-                fields[3] = v;
-                out.push_str(&fields.join(","));
-                out.push('\n');
-            }
-        }
-    }
-    out
-}
-
-/// The numbers of a conformity assessment as (quantity, value) pairs for
-/// CSV; an empty value is an absent limit.
-fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static str, String)> {
-    let mut rows = vec![
-        ("lower_limit", opt(c.lower_limit)),
-        ("upper_limit", opt(c.upper_limit)),
-        ("rule", csv_field(c.rule.name())),
-        ("guard_band", opt(c.guard_band)),
-    ];
-    match c.acceptance_interval {
-        Some([a, b]) => {
-            rows.push(("acceptance_lower", opt(a)));
-            rows.push(("acceptance_upper", opt(b)));
-        }
-        None => rows.push(("acceptance_interval", "empty".into())),
-    }
-    rows.push((
-        "conformance_probability",
-        format!("{:e}", c.conformance_probability),
-    ));
-    rows.push(("verdict", c.verdict.to_string()));
-    rows.push((
-        if c.specific_risk_kind == incertus_gum::conformity::RiskKind::Consumer {
-            "specific_consumer_risk"
-        } else {
-            "specific_producer_risk"
-        },
-        format!("{:e}", c.specific_risk),
-    ));
-    if let Some(m) = &c.monte_carlo {
-        rows.push((
-            "monte_carlo_conformance_probability",
-            format!("{:e}", m.conformance_probability),
-        ));
-    }
-    if let Some(g) = &c.global_risks {
-        rows.push(("global_consumer_risk", format!("{:e}", g.consumer_risk)));
-        rows.push(("global_producer_risk", format!("{:e}", g.producer_risk)));
-    }
-    rows
 }

@@ -31,6 +31,7 @@ pub struct InputBuilder {
     dof: Option<f64>,
     unit: Option<String>,
     description: Option<String>,
+    source: Option<String>,
 }
 
 #[derive(Clone, Debug)]
@@ -98,6 +99,12 @@ impl InputBuilder {
         self.description = Some(d.to_string());
         self
     }
+    /// Where the value or its uncertainty comes from (a certificate, a
+    /// handbook), for the record a report carries.
+    pub fn source(mut self, s: &str) -> Self {
+        self.source = Some(s.to_string());
+        self
+    }
 
     fn describe(self, name: &str) -> InputDescription {
         let dof = self.dof.map(DofGiven::Dof);
@@ -135,6 +142,7 @@ impl InputBuilder {
         InputDescription {
             name: name.to_string(),
             description: self.description,
+            source: self.source,
             unit: self.unit,
             evaluation,
             sensitivity: Vec::new(),

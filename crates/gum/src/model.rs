@@ -216,6 +216,11 @@ pub struct Input {
     pub observations: Option<Vec<f64>>,
     /// Free text for reports.
     pub description: Option<String>,
+    /// Where its value or uncertainty comes from, for the record.
+    pub source: Option<String>,
+    /// The evaluation as stated (in the input's own unit, observations as
+    /// given), for the record a report carries.
+    pub stated: crate::description::InputEvaluation,
     /// The unit as written; estimate and uncertainty above are in coherent SI
     /// when it is given.
     pub unit: Option<String>,
@@ -349,6 +354,8 @@ pub struct Measurand {
 pub struct Model {
     /// A title for reports.
     pub title: Option<String>,
+    /// Free text about the model (for the record a report carries).
+    pub description: Option<String>,
     /// The coverage probability p.
     pub coverage_probability: f64,
     /// How ν_eff is rounded.

@@ -643,3 +643,197 @@ impl UnitParser<'_> {
         Ok((n, d))
     }
 }
+
+/// The factors of a unit written as a product of symbols with integer
+/// powers, parentheses allowed (`kg m^-3`, `g/mL`, `1/(mg/L)`, `J/(kg K)`):
+/// each symbol with its power, in the order written. `None` for anything
+/// else (fractional powers); an empty list for no unit or `1`. Follows the
+/// parser's rule that after a `/` every further factor divides.
+fn plain_factors(text: &str) -> Option<Vec<(String, i32)>> {
+    let chars: Vec<char> = text.trim().chars().collect();
+    let mut i = 0;
+    let out = product_factors(&chars, &mut i, 0)?;
+    (i == chars.len()).then_some(out)
+}
+
+/// An integer power after a symbol or a group: `^n`, `^-n`, `**n` or
+/// superscript digits; 1 when there is none, `None` when it is not an
+/// integer of at most three digits.
+fn integer_power(chars: &[char], i: &mut usize) -> Option<i32> {
+    let sup = |c: char| "⁰¹²³⁴⁵⁶⁷⁸⁹".chars().position(|s| s == c);
+    let (neg, start) = match chars.get(*i) {
+        Some('^') => match chars.get(*i + 1) {
+            Some('-') => (true, *i + 2),
+            Some('+') => (false, *i + 2),
+            _ => (false, *i + 1),
+        },
+        Some('*') if chars.get(*i + 1) == Some(&'*') => (false, *i + 2),
+        Some('⁻') => (true, *i + 1),
+        Some(&c) if sup(c).is_some() => (false, *i),
+        _ => return Some(1),
+    };
+    let superscript = !matches!(chars.get(*i), Some('^') | Some('*'));
+    let mut j = start;
+    let mut v = 0i32;
+    while j < chars.len() && j - start < 3 {
+        let d = if superscript {
+            sup(chars[j])
+        } else {
+            chars[j].to_digit(10).map(|d| d as usize)
+        };
+        match d {
+            Some(d) => v = v * 10 + d as i32,
+            None => break,
+        }
+        j += 1;
+    }
+    if j == start
+        || chars
+            .get(j)
+            .is_some_and(|c| c.is_ascii_digit() || sup(*c).is_some())
+    {
+        return None;
+    }
+    *i = j;
+    Some(if neg { -v } else { v })
+}
+
+fn product_factors(chars: &[char], i: &mut usize, depth: usize) -> Option<Vec<(String, i32)>> {
+    if depth > 8 {
+        return None;
+    }
+    let mut out: Vec<(String, i32)> = Vec::new();
+    let mut sign = 1;
+    while *i < chars.len() {
+        let c = chars[*i];
+        if c == ')' {
+            break;
+        }
+        if c.is_whitespace() || matches!(c, '*' | '·' | '.') {
+            *i += 1;
+            continue;
+        }
+        if c == '/' {
+            sign = -1;
+            *i += 1;
+            continue;
+        }
+        if c == '(' {
+            *i += 1;
+            let inner = product_factors(chars, i, depth + 1)?;
+            if chars.get(*i) != Some(&')') {
+                return None;
+            }
+            *i += 1;
+            let p = integer_power(chars, i)?;
+            out.extend(inner.into_iter().map(|(s, q)| (s, sign * p * q)));
+            continue;
+        }
+        if c == '1' && !chars.get(*i + 1).is_some_and(|n| n.is_ascii_digit()) {
+            *i += 1;
+            let p = integer_power(chars, i)?;
+            let _ = p; // 1 to any power is 1
+            continue;
+        }
+        if c.is_alphabetic() || matches!(c, '%' | '°' | 'Å' | 'Ω' | 'µ') {
+            let start = *i;
+            while *i < chars.len() && (chars[*i].is_alphabetic() || matches!(chars[*i], '%' | '°'))
+            {
+                *i += 1;
+            }
+            let sym: String = chars[start..*i].iter().collect();
+            let p = integer_power(chars, i)?;
+            out.push((sym, sign * p));
+            continue;
+        }
+        return None;
+    }
+    Some(out)
+}
+
+fn write_factors(factors: &[(String, i32)]) -> String {
+    let one = |(s, p): &(String, i32)| {
+        if *p == 1 {
+            s.clone()
+        } else {
+            format!("{s}^{p}")
+        }
+    };
+    let num: Vec<String> = factors.iter().filter(|f| f.1 > 0).map(one).collect();
+    let den: Vec<String> = factors
+        .iter()
+        .filter(|f| f.1 < 0)
+        .map(|(s, p)| one(&(s.clone(), -p)))
+        .collect();
+    let top = if num.is_empty() {
+        "1".to_string()
+    } else {
+        num.join("*")
+    };
+    match den.len() {
+        0 => top,
+        1 => format!("{top}/{}", den[0]),
+        _ => format!("{top}/({})", den.join("*")),
+    }
+}
+
+/// The unit of a sensitivity coefficient ∂y/∂x: the unit of `y` divided by
+/// the unit of `x`, as written (no conversion: `mm^3` per `mm` is `mm^2`, `g`
+/// per `mL` is `g/mL`, `mm` per `m` stays `mm/m`). Equal symbols cancel; an
+/// empty string means the coefficient has no unit. Units that are not plain
+/// products are divided as written, in parentheses. The result parses to the
+/// quotient of the two units (tested over a grid).
+///
+/// ```
+/// assert_eq!(incertus_units::quotient("mm^3", "mm"), "mm^2");
+/// assert_eq!(incertus_units::quotient("g/mL", "g"), "1/mL");
+/// assert_eq!(incertus_units::quotient("", "K"), "1/K");
+/// assert_eq!(incertus_units::quotient("Pa", "Pa"), "");
+/// ```
+pub fn quotient(y: &str, x: &str) -> String {
+    if let (Some(fy), Some(fx)) = (plain_factors(y), plain_factors(x)) {
+        let mut all: Vec<(String, i32)> = Vec::new();
+        for (s, p) in fy.into_iter().chain(fx.into_iter().map(|(s, p)| (s, -p))) {
+            match all.iter_mut().find(|(t, _)| *t == s) {
+                Some(f) => f.1 += p,
+                None => all.push((s, p)),
+            }
+        }
+        all.retain(|f| f.1 != 0);
+        if all.is_empty() {
+            return String::new();
+        }
+        return write_factors(&all);
+    }
+    let wrap = |t: &str| {
+        let t = t.trim();
+        if t.is_empty() || t == "1" {
+            None
+        } else {
+            Some(format!("({t})"))
+        }
+    };
+    match (wrap(y), wrap(x)) {
+        (Some(a), Some(b)) => format!("{a}/{b}"),
+        (Some(_), None) => y.trim().to_string(),
+        (None, Some(b)) => format!("1/{b}"),
+        (None, None) => String::new(),
+    }
+}
+
+/// The square of a unit as written (`mm^3` → `mm^6`, `g/mL` → `g^2/mL^2`),
+/// the unit of a variance or covariance term; units that are not plain
+/// products are squared in parentheses. Empty for no unit.
+///
+/// ```
+/// assert_eq!(incertus_units::squared("mm^3"), "mm^6");
+/// assert_eq!(incertus_units::squared("g/mL"), "g^2/mL^2");
+/// assert_eq!(incertus_units::squared(""), "");
+/// ```
+pub fn squared(text: &str) -> String {
+    match plain_factors(text) {
+        Some(f) if f.is_empty() => String::new(),
+        Some(f) => write_factors(&f.into_iter().map(|(s, p)| (s, 2 * p)).collect::<Vec<_>>()),
+        None => format!("({})^2", text.trim()),
+    }
+}

@@ -209,6 +209,8 @@ pub(crate) struct InputKeys {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub description: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub source: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sensitivity: Option<SensitivityKeys>,
 }
 
@@ -269,6 +271,7 @@ impl From<&InputDescription> for InputKeys {
     fn from(d: &InputDescription) -> Self {
         let mut k = InputKeys {
             description: d.description.clone(),
+            source: d.source.clone(),
             unit: d.unit.clone(),
             ..InputKeys::default()
         };
@@ -1051,6 +1054,7 @@ impl TryFrom<FileModel> for ModelDescription {
                 .map_err(|p| at(format!("inputs.{name}"), p))?;
             d.inputs.push(InputDescription {
                 description: k.description.clone(),
+                source: k.source.clone(),
                 unit: k.unit.clone(),
                 evaluation,
                 sensitivity: k

@@ -75,6 +75,9 @@ pub struct InputDescription {
     pub name: String,
     /// Free text for reports.
     pub description: Option<String>,
+    /// Where its value or uncertainty comes from (a certificate, a
+    /// handbook, a data sheet), for the record.
+    pub source: Option<String>,
     /// The unit its numbers are given in (`None`: no unit).
     pub unit: Option<String>,
     /// What is known about the input.
@@ -352,6 +355,7 @@ impl InputDescription {
         InputDescription {
             name: name.to_string(),
             description: None,
+            source: None,
             unit: None,
             evaluation,
             sensitivity: Vec::new(),

@@ -111,6 +111,7 @@ fn inputs(doc: &Doc, top: &mut Reader, fits: &[FitDescription]) -> Result<Vec<In
         out.push(InputDescription {
             name,
             description: keys.description,
+            source: keys.source,
             unit: keys.unit,
             evaluation,
             sensitivity,
@@ -146,6 +147,7 @@ fn input_keys(r: &mut Reader) -> Result<InputKeys> {
         fit: s(r, "fit")?,
         parameter: s(r, "parameter")?,
         description: s(r, "description")?,
+        source: s(r, "source")?,
         unit: s(r, "unit")?,
         sensitivity: None,
     })

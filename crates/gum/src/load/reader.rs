@@ -406,6 +406,7 @@ pub(super) const INPUT_KEYS: &[&str] = &[
     "pooled_dof",
     "constant",
     "description",
+    "source",
     "unit",
     "sensitivity",
     "fit",

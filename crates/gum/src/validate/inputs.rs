@@ -85,6 +85,8 @@ impl Validator<'_, '_> {
             distribution: Distribution::Normal,
             observations: None,
             description: d.description.clone(),
+            source: d.source.clone(),
+            stated: d.evaluation.clone(),
             unit: d.unit.clone(),
             unit_si: None,
             stated_sensitivities: Vec::new(),

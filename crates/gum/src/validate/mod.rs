@@ -217,6 +217,7 @@ impl Validator<'_, '_> {
             || measurands.iter().any(|m| m.unit_si.is_some());
         Ok(Model {
             title: d.title.clone(),
+            description: d.description.clone(),
             coverage_probability,
             dof_rounding,
             inputs,
