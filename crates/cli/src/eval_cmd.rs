@@ -149,7 +149,14 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
     let settings = mc_settings(a)?;
     // The files this evaluation reads: the model and its fits' data.
     let mut inputs = vec![a.file.clone()];
-    inputs.extend(model.fits.iter().map(|f| std::path::PathBuf::from(&f.data)));
+    // (an inline fit has no file)
+    inputs.extend(
+        model
+            .fits
+            .iter()
+            .filter(|f| f.data != "inline")
+            .map(|f| std::path::PathBuf::from(&f.data)),
+    );
     if let Some(dir) = &a.report {
         // Before any work: the folder must be free, or hold an earlier
         // report and none of these files.

@@ -50,7 +50,7 @@ th, td { border: 1px solid #c8c8c8; padding: 0.18em 0.45em; text-align: left; ve
 thead th { background: #ececec; font-weight: 600; }
 tbody th { font-weight: normal; background: #f7f7f7; }
 td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-th { overflow-wrap: break-word; hyphens: auto; }
+th { overflow-wrap: anywhere; }
 table.budget, table.results, table.inputs, table.fit-data, table.monte-carlo { width: 100%; }
 tr.total td { border-top: 2px solid #777; font-weight: 600; }
 code { font-family: 'DejaVu Sans Mono', monospace; font-size: 0.92em; overflow-wrap: anywhere; }

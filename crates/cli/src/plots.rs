@@ -204,6 +204,42 @@ fn canvas<'a>(svg: &'a mut String) -> Result<(Area<'a>, Area<'a>), String> {
     Ok(root.split_horizontally(W - LEGEND))
 }
 
+/// A caption that fits the width of the data area: the font shrinks down
+/// to the size of the tick labels, then the text is shortened with `…`
+/// (the report's figure caption under the plot carries it in full). Widths
+/// are estimated at 0.6 of the font size per character, generous for
+/// sans-serif.
+fn fitted_caption(text: &str, font: u32) -> (String, u32) {
+    fitted(text, font, (W - LEGEND - 20) as f64)
+}
+
+/// The x axis label fitted to the data area's width, the y label to its
+/// height (it is drawn turned).
+fn fitted_labels(x: &str, y: &str) -> ((String, u32), (String, u32)) {
+    (
+        fitted(x, LABEL, (W - LEGEND - 96 - 30) as f64),
+        fitted(y, LABEL, (H - 52 - 50) as f64),
+    )
+}
+
+/// `text` in at most `room` pixels: a smaller font, then shortened.
+fn fitted(text: &str, font: u32, room: f64) -> (String, u32) {
+    let width = |n: usize, f: u32| n as f64 * 0.6 * f as f64;
+    let n = text.chars().count();
+    let mut f = font;
+    while f > TICK && width(n, f) > room {
+        f -= 1;
+    }
+    if width(n, f) <= room {
+        return (text.to_string(), f);
+    }
+    let keep = (room / (0.6 * f as f64)) as usize - 1;
+    (
+        format!("{}…", text.chars().take(keep).collect::<String>()),
+        f,
+    )
+}
+
 type Chart<'a, 'b> = ChartContext<
     'a,
     SVGBackend<'b>,
@@ -217,20 +253,22 @@ fn chart<'a, 'b>(
     y: std::ops::Range<f64>,
     labels: (&str, &str),
 ) -> Result<Chart<'a, 'b>, String> {
+    let (caption, size) = fitted_caption(caption, CAPTION);
     let mut chart = ChartBuilder::on(area)
-        .caption(caption, ("sans-serif", CAPTION))
+        .caption(caption, ("sans-serif", size))
         .margin(10)
         .x_label_area_size(52)
         .y_label_area_size(96)
         .build_cartesian_2d(x, y)
         .map_err(perr)?;
+    let ((xl, xf), (yl, yf)) = fitted_labels(labels.0, labels.1);
     chart
         .configure_mesh()
         .light_line_style(WHITE)
         .label_style(("sans-serif", TICK))
-        .axis_desc_style(("sans-serif", LABEL))
-        .x_desc(labels.0)
-        .y_desc(labels.1)
+        .axis_desc_style(("sans-serif", xf.min(yf)))
+        .x_desc(xl)
+        .y_desc(yl)
         .draw()
         .map_err(perr)?;
     Ok(chart)
@@ -245,6 +283,14 @@ fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String
         shares.push(100.0 * c.share);
     }
     let n = labels.len().max(1);
+    // Each bar's label fits its share of the axis (the budget table names
+    // the quantity in full).
+    let room = (((W - LEGEND - 110) as f64 / n as f64) / (0.6 * TICK as f64)).floor() as usize;
+    for l in &mut labels {
+        if l.chars().count() > room.max(3) {
+            *l = format!("{}…", l.chars().take(room.max(3) - 1).collect::<String>());
+        }
+    }
     let hi = shares.iter().cloned().fold(0.0, f64::max).max(1.0) * 1.1;
     let lo = shares.iter().cloned().fold(0.0, f64::min).min(0.0) * 1.1;
     let mut svg = String::new();
@@ -264,12 +310,13 @@ fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String
             )
             .map_err(perr)?;
         let names = labels.clone();
+        let (_, (y_label, y_font)) = fitted_labels("", &format!("share of u²({}) / %", r.name));
         chart
             .configure_mesh()
             .disable_x_mesh()
             .light_line_style(WHITE)
             .label_style(("sans-serif", TICK))
-            .axis_desc_style(("sans-serif", LABEL))
+            .axis_desc_style(("sans-serif", y_font))
             .x_labels(n)
             .x_label_formatter(&|x| {
                 let i = x.round();
@@ -280,7 +327,7 @@ fn contributions_svg(r: &incertus_gum::MeasurandResult) -> Result<String, String
                 }
             })
             .x_desc("input quantity (and correlation terms)")
-            .y_desc(format!("share of u²({}) / %", r.name))
+            .y_desc(y_label)
             .draw()
             .map_err(perr)?;
         chart
