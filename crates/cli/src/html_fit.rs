@@ -19,20 +19,7 @@ pub(crate) fn parameter_unit(f: &NamedFit, power: usize) -> String {
 pub(crate) fn parameter_unit_as_written(f: &NamedFit, power: usize) -> String {
     let y = f.y_unit.as_deref().unwrap_or("");
     let x = f.x_unit.as_deref().unwrap_or("");
-    let mut xp = String::new();
-    for _ in 0..power {
-        xp = if xp.is_empty() {
-            x.to_string()
-        } else {
-            incertus_units::quotient(&xp, &incertus_units::quotient("", x))
-        };
-    }
-    let u = incertus_units::quotient(y, &xp);
-    if u == "1" {
-        String::new()
-    } else {
-        u
-    }
+    incertus_units::quotient(y, &incertus_units::power(x, power as i32))
 }
 
 fn axis(name: &str, unit: &Option<String>) -> String {

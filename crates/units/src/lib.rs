@@ -821,6 +821,24 @@ pub fn quotient(y: &str, x: &str) -> String {
     }
 }
 
+/// A unit as written raised to an integer power (`mm^3`, 2 → `mm^6`;
+/// `g/mL`, 2 → `g^2/mL^2`); units that are not products of integer powers
+/// are raised in parentheses. Empty for no unit or a power of 0.
+///
+/// ```
+/// assert_eq!(incertus_units::power("mg/L", 2), "mg^2/L^2");
+/// assert_eq!(incertus_units::power("K", -1), "1/K");
+/// ```
+pub fn power(text: &str, n: i32) -> String {
+    match plain_factors(text) {
+        _ if n == 0 => String::new(),
+        Some(f) if f.is_empty() => String::new(),
+        Some(f) => write_factors(&f.into_iter().map(|(s, p)| (s, n * p)).collect::<Vec<_>>()),
+        None if n == 1 => text.trim().to_string(),
+        None => format!("({})^{n}", text.trim()),
+    }
+}
+
 /// The square of a unit as written (`mm^3` → `mm^6`, `g/mL` → `g^2/mL^2`),
 /// the unit of a variance or covariance term; units that are not plain
 /// products are squared in parentheses. Empty for no unit.
@@ -831,9 +849,5 @@ pub fn quotient(y: &str, x: &str) -> String {
 /// assert_eq!(incertus_units::squared(""), "");
 /// ```
 pub fn squared(text: &str) -> String {
-    match plain_factors(text) {
-        Some(f) if f.is_empty() => String::new(),
-        Some(f) => write_factors(&f.into_iter().map(|(s, p)| (s, 2 * p)).collect::<Vec<_>>()),
-        None => format!("({})^2", text.trim()),
-    }
+    power(text, 2)
 }

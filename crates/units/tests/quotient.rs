@@ -96,3 +96,21 @@ fn the_square_parses_to_the_square_of_the_unit() {
         assert!((got.factor - f).abs() <= 1e-12 * f, "{u} -> {s}");
     }
 }
+
+#[test]
+fn powers_parse_to_the_power_of_the_unit() {
+    for u in UNITS {
+        for n in -3..=3 {
+            let s = incertus_units::power(u, n);
+            let got = parse(&s).unwrap_or_else(|e| panic!("{u}^{n} -> `{s}`: {e:?}"));
+            let want = parse(u).unwrap();
+            assert_eq!(
+                got.dimension,
+                want.dimension.pow(n, 1).unwrap(),
+                "{u}^{n} -> {s}"
+            );
+            let f = want.factor.powi(n);
+            assert!((got.factor - f).abs() <= 1e-12 * f, "{u}^{n} -> {s}");
+        }
+    }
+}

@@ -385,18 +385,8 @@ impl Validator<'_, '_> {
         };
         // The parameter's unit: y / x^k for c_k (intercept c0, slope c1).
         if let (Some(yu), Some(xu)) = (&f.y_unit, &f.x_unit) {
-            let group = |u: &str| {
-                if u.contains(['/', ' ', '*', '^']) {
-                    format!("({u})")
-                } else {
-                    u.to_string()
-                }
-            };
-            input.unit = Some(match k {
-                0 => yu.clone(),
-                1 => format!("{}/{}", group(yu), group(xu)),
-                _ => format!("{}/{}^{k}", group(yu), group(xu)),
-            });
+            let u = incertus_units::quotient(yu, &incertus_units::power(xu, k as i32));
+            input.unit = Some(if u.is_empty() { "1".to_string() } else { u });
         }
         input.evaluation = Evaluation::Fit {
             fit: fname.to_string(),
