@@ -47,5 +47,23 @@ fn typed_values_come_back_as_typed() {
                 "{unit} x{i}"
             );
         }
+        // budget.csv as another program reads it: the value as typed, in
+        // its shortest form (`20.075`, `0.001`, `3.3e-7`).
+        let (code, csv, err) = incertus(&["eval", f.to_str().unwrap(), "--format", "budget-csv"]);
+        assert_eq!(code, 0, "{unit}: {err}");
+        let rows: Vec<Vec<&str>> = csv
+            .lines()
+            .map(|l| l.split(',').collect())
+            .filter(|c: &Vec<&str>| c[1] == "input")
+            .collect();
+        for (i, row) in rows.iter().enumerate() {
+            let want = if values[i].abs() >= 1e-4 {
+                format!("{}", values[i])
+            } else {
+                format!("{:e}", values[i])
+            };
+            assert_eq!(row[3], want, "{unit} x{i}: {}", row.join(","));
+            assert_eq!(row[4], "0.01", "{unit} x{i}");
+        }
     }
 }

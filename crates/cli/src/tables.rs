@@ -14,7 +14,7 @@ pub(crate) fn csv_field(s: &str) -> String {
 }
 
 fn opt(v: Option<f64>) -> String {
-    v.map(|x| format!("{x:e}")).unwrap_or_default()
+    v.map(table_number).unwrap_or_default()
 }
 
 /// A number for a table another program reads: every digit of the f64 in
@@ -253,28 +253,28 @@ pub fn csv(report: &Report) -> String {
                 },
             ),
             ("unit", csv_field(r.unit.as_deref().unwrap_or(""))),
-            ("value", format!("{:e}", rep.value)),
+            ("value", table_number(rep.value)),
             (
                 "standard_uncertainty",
-                format!("{:e}", rep.standard_uncertainty),
+                table_number(rep.standard_uncertainty),
             ),
             (
                 "expanded_uncertainty",
-                format!("{:e}", rep.expanded_uncertainty),
+                table_number(rep.expanded_uncertainty),
             ),
             (
                 "coverage_probability",
-                format!("{:e}", rep.coverage_probability),
+                table_number(rep.coverage_probability),
             ),
             (
                 "coverage_interval_lower",
-                format!("{:e}", rep.coverage_interval[0]),
+                table_number(rep.coverage_interval[0]),
             ),
             (
                 "coverage_interval_upper",
-                format!("{:e}", rep.coverage_interval[1]),
+                table_number(rep.coverage_interval[1]),
             ),
-            ("coverage_factor", format!("{:e}", r.coverage_factor)),
+            ("coverage_factor", table_number(r.coverage_factor)),
             ("effective_dof", opt(r.effective_dof_used)),
         ];
         for (what, v) in rows {
@@ -292,15 +292,15 @@ pub fn csv(report: &Report) -> String {
                 csv_field(&r.name),
                 "input".into(),
                 csv_field(&b.input),
-                format!("{:e}", b.value),
-                format!("{:e}", b.standard_uncertainty),
+                table_number(b.value),
+                table_number(b.standard_uncertainty),
                 opt(b.dof),
                 b.evaluation.to_string(),
                 b.distribution.to_string(),
-                format!("{:e}", b.sensitivity),
+                table_number(b.sensitivity),
                 csv_field(&b.sensitivity_formula),
-                format!("{:e}", b.contribution),
-                format!("{:e}", b.share),
+                table_number(b.contribution),
+                table_number(b.share),
                 // The input's own unit (value, u); the coefficient's is y's
                 // per x's, the contribution is in the measurand's.
                 csv_field(b.unit.as_deref().unwrap_or("")),
@@ -315,15 +315,15 @@ pub fn csv(report: &Report) -> String {
                 csv_field(&r.name),
                 "correlation".into(),
                 csv_field(&format!("{} {}", c.inputs[0], c.inputs[1])),
-                format!("{:e}", c.coefficient),
+                table_number(c.coefficient),
                 String::new(),
                 String::new(),
                 String::new(),
                 String::new(),
                 String::new(),
                 String::new(),
-                format!("{:e}", c.term),
-                format!("{:e}", c.share),
+                table_number(c.term),
+                table_number(c.share),
                 // The covariance term is in the square of the measurand's unit.
                 String::new(),
                 String::new(),
@@ -366,7 +366,7 @@ fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static st
     }
     rows.push((
         "conformance_probability",
-        format!("{:e}", c.conformance_probability),
+        table_number(c.conformance_probability),
     ));
     rows.push(("verdict", c.verdict.to_string()));
     rows.push((
@@ -375,17 +375,17 @@ fn conformity_rows(c: &incertus_gum::conformity::Conformity) -> Vec<(&'static st
         } else {
             "specific_producer_risk"
         },
-        format!("{:e}", c.specific_risk),
+        table_number(c.specific_risk),
     ));
     if let Some(m) = &c.monte_carlo {
         rows.push((
             "monte_carlo_conformance_probability",
-            format!("{:e}", m.conformance_probability),
+            table_number(m.conformance_probability),
         ));
     }
     if let Some(g) = &c.global_risks {
-        rows.push(("global_consumer_risk", format!("{:e}", g.consumer_risk)));
-        rows.push(("global_producer_risk", format!("{:e}", g.producer_risk)));
+        rows.push(("global_consumer_risk", table_number(g.consumer_risk)));
+        rows.push(("global_producer_risk", table_number(g.producer_risk)));
     }
     rows
 }
