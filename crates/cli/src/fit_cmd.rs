@@ -133,6 +133,10 @@ pub fn run(a: &FitArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), 
                 a.file.display()
             ),
             &result,
+            [
+                &crate::report::with_unit(&a.x, a.x_unit.as_deref()),
+                &crate::report::with_unit(&a.y, a.y_unit.as_deref()),
+            ],
         ),
         FitFormat::Json => {
             let mut s = serde_json::to_string_pretty(&result).expect("plain data");

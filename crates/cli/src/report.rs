@@ -593,7 +593,23 @@ pub(crate) fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
 
 /// A fit as text: method, parameters, covariance, diagnostics, flags and
 /// exclusions, with the result without the exclusions beside.
-pub fn fit_text(title: &str, f: &incertus_fit::FitResult) -> String {
+/// A column title with its unit, `quantity / unit` (compound units in
+/// parentheses), or the quantity alone without a unit.
+pub fn with_unit(quantity: &str, unit: Option<&str>) -> String {
+    match unit.map(str::trim) {
+        Some(u) if !u.is_empty() && u != "1" => {
+            if u.contains(['/', ' ', '*', '·']) {
+                format!("{quantity} / ({u})")
+            } else {
+                format!("{quantity} / {u}")
+            }
+        }
+        _ => quantity.to_string(),
+    }
+}
+
+/// A fit as text; `axes` are the titles of the x and y columns.
+pub fn fit_text(title: &str, f: &incertus_fit::FitResult, axes: [&str; 2]) -> String {
     let mut out = format!("{title}\n");
     out.push_str(&format!(
         "method: {}; {} points used, {} parameters, dof = {}\n",
@@ -658,8 +674,8 @@ pub fn fit_text(title: &str, f: &incertus_fit::FitResult) -> String {
     }
     let mut rows = vec![[
         "row",
-        "x",
-        "y",
+        axes[0],
+        axes[1],
         "residual",
         "studentised",
         "leverage",
@@ -874,6 +890,10 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
                 f.name, f.y, f.x, f.data
             ),
             &f.result,
+            [
+                &with_unit(&f.x, f.x_unit.as_deref()),
+                &with_unit(&f.y, f.y_unit.as_deref()),
+            ],
         ));
         out.push('\n');
     }
@@ -1003,7 +1023,11 @@ pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String 
                     "least-squares fit `{}`: {} against {} from {}",
                     f.name, f.y, f.x, f.data
                 ),
-                &f.result
+                &f.result,
+                [
+                    &with_unit(&f.x, f.x_unit.as_deref()),
+                    &with_unit(&f.y, f.y_unit.as_deref()),
+                ],
             )
         ));
     }

@@ -192,7 +192,10 @@ fn fit_rows(report: &Report) -> String {
             "residual_standard_deviation",
             table_number(r.residual_standard_deviation),
             String::new(),
-            f.y_unit.clone().unwrap_or_default(),
+            f.y_unit
+                .clone()
+                .filter(|u| u.trim() != "1")
+                .unwrap_or_default(),
         );
         row(
             &f.name,
