@@ -24,6 +24,45 @@ use serde::Serialize;
 use crate::coverage::{coverage_factor, dof_used, effective_dof_correlated};
 use crate::model::{Correlation, Distribution, Dof, Evaluation, Measurand, Model};
 
+/// A derivative of a measurand's formula, kept for evaluations that share
+/// the model's formulas.
+#[derive(Debug)]
+pub(crate) struct Derived {
+    expr: Expr,
+    text: String,
+    /// Whether it simplifies to 0 (the input does not really enter),
+    /// found when first asked.
+    zero: std::sync::OnceLock<bool>,
+}
+
+impl Derived {
+    fn is_zero(&self) -> bool {
+        *self
+            .zero
+            .get_or_init(|| matches!(simplify(&self.expr).kind, Kind::Num(v) if v == 0.0))
+    }
+}
+
+/// How one input enters one measurand's formula.
+#[derive(Clone, Debug)]
+enum Plan {
+    NotUsed,
+    ChainRule,
+    Direct(std::sync::Arc<Derived>),
+}
+
+/// The symbolic work of a model, done once and shared by evaluations of
+/// the same formulas at other input values (`crate::batch`): the formulas
+/// written out in the inputs, and per measurand how each input enters it
+/// with its derivative. A fresh cache for every `propagate`; filled on
+/// first use, read by later evaluations from any thread.
+#[derive(Debug, Default)]
+pub struct DerivativeCache {
+    expanded: std::sync::OnceLock<Vec<(String, Expr)>>,
+    plans: std::sync::RwLock<HashMap<String, std::sync::Arc<Vec<Plan>>>>,
+    own: std::sync::RwLock<HashMap<(String, String), std::sync::Arc<Derived>>>,
+}
+
 /// Options of one evaluation.
 #[derive(Clone, Debug, Default)]
 pub struct Options {
@@ -492,6 +531,17 @@ fn underflow(measurand: &str, what: &str, part: &str) -> PropagationError {
 
 /// Evaluate every measurand of the model.
 pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationError> {
+    propagate_cached(model, opts, &DerivativeCache::default())
+}
+
+/// [`propagate`] with the symbolic work kept in `cache`, for many
+/// evaluations of models that differ only in their inputs' numbers (the
+/// same formulas, inputs and measurands in the same order).
+pub fn propagate_cached(
+    model: &Model,
+    opts: &Options,
+    cache: &DerivativeCache,
+) -> Result<Report, PropagationError> {
     let p = opts
         .coverage_probability
         .unwrap_or(model.coverage_probability);
@@ -517,9 +567,10 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
             .map(|i| (i.name.as_str(), i.estimate))
             .collect(),
         group_of: groups(model),
+        cache,
     };
     let values = cx.values()?;
-    let expanded = expanded_formulas(model);
+    let expanded = cache.expanded.get_or_init(|| expanded_formulas(model));
     let mut notes: Vec<String> = Vec::new();
     let mut results = Vec::new();
     let mut sens_rows: Vec<Vec<f64>> = Vec::new();
@@ -573,6 +624,14 @@ pub fn propagate(model: &Model, opts: &Options) -> Result<Report, PropagationErr
     })
 }
 
+fn derived(expr: Expr) -> Derived {
+    Derived {
+        text: print(&expr),
+        zero: std::sync::OnceLock::new(),
+        expr,
+    }
+}
+
 /// What every measurand's evaluation shares.
 struct Context<'a> {
     model: &'a Model,
@@ -584,6 +643,7 @@ struct Context<'a> {
     env: Vec<(&'a str, f64)>,
     /// The block (shared estimate of u) of each input, for ν_eff.
     group_of: Vec<usize>,
+    cache: &'a DerivativeCache,
 }
 
 /// Above this size (nodes) of a derivative of a formula written out,
@@ -603,7 +663,7 @@ struct FirstOrder<'m> {
     /// Sensitivity coefficients (0 for inputs the formula does not use).
     c: Vec<f64>,
     formulas: Vec<String>,
-    derivatives: Vec<Option<Expr>>,
+    derivatives: Vec<Option<std::sync::Arc<Derived>>>,
     /// The inputs the formula uses.
     used: Vec<usize>,
     /// Largest |c_i u_i|, and the contributions divided by it.
@@ -675,32 +735,23 @@ impl<'a> Context<'a> {
         let warnings = self.smoothness_warnings(m, f);
         let mut c = vec![0.0; n];
         let mut formulas = vec![String::new(); n];
-        let mut derivatives: Vec<Option<Expr>> = vec![None; n];
+        let mut derivatives: Vec<Option<std::sync::Arc<Derived>>> = vec![None; n];
         let mut used = Vec::new();
-        let through_measurands = m
-            .formula
-            .names()
-            .iter()
-            .any(|w| chain.row_of.contains_key(w.as_str()));
+        let plan = self.plan(m, f, chain)?;
         for i in 0..n {
             let name = &model.inputs[i].name;
-            if !f.depends_on(name) {
-                continue;
-            }
-            // A chain of measurands: the derivative of the formula written
-            // out grows with the square of the chain; the chain rule over
-            // each measurand's own formula stays linear (same value to the
-            // last bits, JCGM 100:2008, 5.1.3).
-            if through_measurands && incertus_expr::derivative_size(f, name) > CHAIN_RULE_FROM {
-                let (ci, text) = self.by_chain_rule(m, i, chain)?;
-                c[i] = ci;
-                formulas[i] = text;
-                used.push(i);
-                continue;
-            }
-            let d = checked_derivative(f, name, self.opts.limits.max_derivative_nodes, &m.name)
-                .map_err(|e| e.at(m.line))?;
-            c[i] = d.eval(self.env.as_slice()).map_err(|e| {
+            let d = match &plan[i] {
+                Plan::NotUsed => continue,
+                Plan::ChainRule => {
+                    let (ci, text) = self.by_chain_rule(m, i, chain)?;
+                    c[i] = ci;
+                    formulas[i] = text;
+                    used.push(i);
+                    continue;
+                }
+                Plan::Direct(d) => d,
+            };
+            c[i] = d.expr.eval(self.env.as_slice()).map_err(|e| {
                 perr(
                     format!(
                         "the sensitivity coefficient of `{name}` in `{}` is not defined at the input \
@@ -712,12 +763,12 @@ impl<'a> Context<'a> {
                             .map(|w| format!("\n{w}"))
                             .unwrap_or_default()
                     ),
-                    Some(format!("∂{}/∂{name} = {}", m.name, print(&d))),
+                    Some(format!("∂{}/∂{name} = {}", m.name, d.text)),
                 )
                 .at(m.line)
             })?;
-            formulas[i] = print(&d);
-            derivatives[i] = Some(d);
+            formulas[i] = d.text.clone();
+            derivatives[i] = Some(d.clone());
             used.push(i);
         }
         // Scaled contributions w_i = c_i u_i / s avoid under- and overflow
@@ -761,6 +812,63 @@ impl<'a> Context<'a> {
         })
     }
 
+    /// How each input enters the measurand `m` (formula `f` in the inputs):
+    /// not at all, by the chain rule, or through its derivative; from the
+    /// cache when an earlier evaluation of the same formulas made it.
+    fn plan(
+        &self,
+        m: &Measurand,
+        f: &Expr,
+        chain: &Chain,
+    ) -> Result<std::sync::Arc<Vec<Plan>>, PropagationError> {
+        if let Some(p) = self.cache.plans.read().ok().and_then(|c| c.get(&m.name).cloned()) {
+            return Ok(p);
+        }
+        let through_measurands = m
+            .formula
+            .names()
+            .iter()
+            .any(|w| chain.row_of.contains_key(w.as_str()));
+        let mut plan = Vec::with_capacity(self.model.inputs.len());
+        for input in &self.model.inputs {
+            let name = &input.name;
+            if !f.depends_on(name) {
+                plan.push(Plan::NotUsed);
+                continue;
+            }
+            // A chain of measurands: the derivative of the formula written
+            // out grows with the square of the chain; the chain rule over
+            // each measurand's own formula stays linear (same value to the
+            // last bits, JCGM 100:2008, 5.1.3).
+            if through_measurands && incertus_expr::derivative_size(f, name) > CHAIN_RULE_FROM {
+                plan.push(Plan::ChainRule);
+                continue;
+            }
+            let d = checked_derivative(f, name, self.opts.limits.max_derivative_nodes, &m.name)
+                .map_err(|e| e.at(m.line))?;
+            plan.push(Plan::Direct(std::sync::Arc::new(derived(d))));
+        }
+        let plan = std::sync::Arc::new(plan);
+        if let Ok(mut c) = self.cache.plans.write() {
+            c.insert(m.name.clone(), plan.clone());
+        }
+        Ok(plan)
+    }
+
+    /// ∂(own formula of `m`)/∂w, from the cache when it holds it.
+    fn own_derivative(&self, m: &Measurand, w: &str) -> Result<std::sync::Arc<Derived>, PropagationError> {
+        let key = (m.name.clone(), w.to_string());
+        if let Some(d) = self.cache.own.read().ok().and_then(|c| c.get(&key).cloned()) {
+            return Ok(d);
+        }
+        let d = checked_derivative(&m.formula, w, self.opts.limits.max_derivative_nodes, &m.name)?;
+        let d = std::sync::Arc::new(derived(d));
+        if let Ok(mut c) = self.cache.own.write() {
+            c.insert(key, d.clone());
+        }
+        Ok(d)
+    }
+
     /// ∂y/∂x_i by the chain rule: Σ_w ∂f/∂w · ∂w/∂x_i over the names w of
     /// the measurand's own formula (∂x_i/∂x_i = 1, a measurand's row from
     /// its own evaluation), and the sum written out as text.
@@ -783,28 +891,23 @@ impl<'a> Context<'a> {
             if through == 0.0 {
                 continue;
             }
-            let d = checked_derivative(
-                &m.formula,
-                &w,
-                self.opts.limits.max_derivative_nodes,
-                &m.name,
-            )?;
-            let dw = d.eval(chain.env).map_err(|e| {
+            let d = self.own_derivative(m, &w)?;
+            let dw = d.expr.eval(chain.env).map_err(|e| {
                 perr(
                     format!(
                         "the sensitivity coefficient of `{w}` in `{}` is not defined at the input \
                          estimates: {}",
                         m.name, e.message
                     ),
-                    Some(format!("∂{}/∂{w} = {}", m.name, print(&d))),
+                    Some(format!("∂{}/∂{w} = {}", m.name, d.text)),
                 )
                 .at(m.line)
             })?;
             total += dw * through;
             terms.push(if w == input {
-                format!("({})", print(&d))
+                format!("({})", d.text)
             } else {
-                format!("({})*∂{w}/∂{input}", print(&d))
+                format!("({})*∂{w}/∂{input}", d.text)
             });
         }
         Ok((total, terms.join(" + ")))
@@ -905,9 +1008,7 @@ impl<'a> Context<'a> {
             .iter()
             .filter(|&&i| self.u[i] > 0.0)
             .filter(|&&i| {
-                first.derivatives[i]
-                    .as_ref()
-                    .is_some_and(|d| !matches!(simplify(d).kind, Kind::Num(v) if v == 0.0))
+                first.derivatives[i].as_ref().is_some_and(|d| !d.is_zero())
             })
             .map(|&i| self.model.inputs[i].name.as_str())
             .collect();
