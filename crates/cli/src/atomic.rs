@@ -49,7 +49,8 @@ pub(crate) fn write_atomic(path: &Path, contents: &str) -> std::io::Result<()> {
 /// Whether `name` is a file the program writes into a report folder (the
 /// report, its data, its plots, and the temporary names of its writes).
 pub(crate) fn is_report_file(name: &str) -> bool {
-    const PLOTS: [&str; 5] = [
+    const PLOTS: [&str; 6] = [
+        "items_",
         "contributions_",
         "conformity_",
         "monte_carlo_",
@@ -58,7 +59,7 @@ pub(crate) fn is_report_file(name: &str) -> bool {
     ];
     matches!(
         name,
-        "report.html" | "report.md" | "budget.csv" | "results.csv" | "result.json"
+        "report.html" | "report.md" | "budget.csv" | "results.csv" | "result.json" | "items.csv"
     ) || (name.ends_with(".svg") && PLOTS.iter().any(|p| name.starts_with(p)))
         || (name.starts_with("fit_data_") && name.ends_with(".csv"))
         || (name.starts_with('.') && name.contains(".tmp-"))

@@ -62,6 +62,15 @@ pub struct EvalArgs {
     /// Also write a report folder: HTML, Markdown, CSV, JSON and SVG plots
     #[arg(long, value_name = "DIR")]
     report: Option<PathBuf>,
+    /// Evaluate the model once per row of a CSV table of items: a column
+    /// named after an input sets its estimate, a column INPUT.KEY any key
+    /// of the input (INPUT.standard_uncertainty, INPUT.observations, ...)
+    #[arg(long, value_name = "TABLE.csv")]
+    items: Option<PathBuf>,
+    /// The column of the table that identifies each item (default: `item`
+    /// when there is one; otherwise rows are numbered)
+    #[arg(long, value_name = "COLUMN", requires = "items")]
+    item_column: Option<String>,
     /// Who evaluated: named in the report's record (blank for signing otherwise)
     #[arg(long, value_name = "NAME")]
     evaluated_by: Option<String>,
@@ -144,7 +153,89 @@ pub(crate) fn evaluate(
     })
 }
 
+/// `eval --items`: one evaluation per item of a table.
+fn run_items(
+    a: &EvalArgs,
+    table: &std::path::Path,
+    out: &mut dyn Write,
+    err: &mut dyn Write,
+) -> Result<(), Failure> {
+    let format = match a.format {
+        Format::Text => crate::items::Format::Text,
+        Format::Markdown => crate::items::Format::Markdown,
+        Format::Json => crate::items::Format::Json,
+        Format::Csv => crate::items::Format::Csv,
+        Format::BudgetCsv => {
+            return Err(Failure::input(
+                "--format budget-csv gives one model's budget; with --items choose text, markdown, json or csv \
+                 (one row per item and measurand)",
+            ))
+        }
+    };
+    let model = load(&a.file)?;
+    let mut inputs = vec![a.file.clone(), table.to_path_buf()];
+    inputs.extend(
+        model
+            .fits
+            .iter()
+            .filter(|f| f.data != "inline")
+            .map(|f| std::path::PathBuf::from(&f.data)),
+    );
+    if let Some(dir) = &a.report {
+        crate::files::check_report_folder(dir, a.force, &inputs)?;
+    }
+    if let Some(p) = a.coverage {
+        if let Err(m) = incertus_gum::coverage::check_coverage_probability(p) {
+            return Err(Failure::input(format!("--coverage {m}")));
+        }
+    }
+    let settings = mc_settings(a)?;
+    let opts = Options {
+        coverage_probability: a.coverage,
+        second_order: a.second_order,
+        limits: crate::limits()?,
+    };
+    let record = a.report.as_ref().map(|_| {
+        let mut s = eval_settings(a, &model, None);
+        if let Some(m) = &settings {
+            s.push((
+                "Monte Carlo".into(),
+                format!(
+                    "{} per item, seed {} with the item's row (SplitMix64)",
+                    match m.trials {
+                        incertus_mc::Trials::Fixed(n) => format!("{n} trials"),
+                        _ => "adaptive trials".into(),
+                    },
+                    m.seed
+                ),
+            ));
+        }
+        if let Some(c) = &a.item_column {
+            s.push(("item column".into(), c.clone()));
+        }
+        crate::record::Record::new(&inputs, s, a.evaluated_by.clone(), a.checked_by.clone())
+    });
+    crate::items::run(
+        &a.file,
+        table,
+        a.item_column.as_deref(),
+        opts,
+        settings,
+        format,
+        Style { digits: a.digits },
+        a.report
+            .as_deref()
+            .zip(record)
+            .map(|(d, r)| (d, a.force, r)),
+        out,
+        err,
+    )
+}
+
 pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Result<(), Failure> {
+    if let Some(table) = &a.items {
+        return run_items(a, table, out, err);
+    }
     let model = load(&a.file)?;
     let settings = mc_settings(a)?;
     // The files this evaluation reads: the model and its fits' data.

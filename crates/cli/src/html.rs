@@ -772,3 +772,72 @@ fn plots_section(p: &Parts) -> String {
     }
     s
 }
+
+/// The HTML document of a table of items: the procedure (the model's
+/// inputs as stated) once, the summary, the items, the record, the plots.
+pub(crate) fn items_document(
+    title: &str,
+    model: &Model,
+    items: &Table,
+    summary: &[String],
+    record: &crate::record::Record,
+    plots: &[(String, String, String)],
+    not_drawn: &[String],
+) -> String {
+    let mut s = format!(
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n\
+         <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"/>\n\
+         <meta name=\"generator\" content=\"incertus {}\"/>\n<title>{}</title>\n<style>\n{CSS}</style>\n</head>\n<body>\n<h1>{}</h1>\n",
+        env!("CARGO_PKG_VERSION"),
+        esc(title),
+        esc(title)
+    );
+    s.push_str(
+        "<p class=\"caution\">One measurement procedure evaluated for every item of a table (JCGM 100:2008). \
+         The results are an aid to, not a substitute for, the laboratory's validation of its methods and its \
+         quality system.</p>\n<nav class=\"toc\"><b>Contents</b>\n<ol>\n<li><a href=\"#summary\">Summary</a></li>\n\
+         <li><a href=\"#procedure\">The procedure</a></li>\n<li><a href=\"#items\">Items</a></li>\n\
+         <li><a href=\"#record\">Record of the evaluation</a></li>\n<li><a href=\"#plots\">Plots</a></li>\n</ol>\n</nav>\n",
+    );
+    s.push_str("<h2 id=\"summary\">Summary</h2>\n<ul>\n");
+    for l in summary {
+        s.push_str(&format!("<li>{}</li>\n", esc(l.trim())));
+    }
+    s.push_str("</ul>\n<h2 id=\"procedure\">The procedure</h2>\n");
+    for m in &model.measurands {
+        s.push_str(&format!(
+            "<p>Measurement model: <code>{} = {}</code></p>\n",
+            esc(&m.name),
+            esc(&m.formula_text)
+        ));
+    }
+    s.push_str(&table(
+        "Inputs as the model states them (a table of items changes some of them per item)",
+        &inputs_table(model),
+        &[3, 4],
+        "inputs",
+    ));
+    s.push_str("<h2 id=\"items\">Items</h2>\n");
+    let numeric = columns(items, &["estimate", "U", "k"]);
+    s.push_str(&table(
+        "Each item's result, rounded (JCGM 100:2008, 7.2.6)",
+        items,
+        &numeric,
+        "results",
+    ));
+    s.push_str(&record.html(esc));
+    s.push_str("<h2 id=\"plots\">Plots</h2>\n");
+    for n in not_drawn {
+        s.push_str(&format!("<p class=\"note\">Not drawn: {}</p>\n", esc(n)));
+    }
+    for (file, caption, svg) in plots {
+        s.push_str(&format!(
+            "<figure>\n{}\n<figcaption>{} ({})</figcaption>\n</figure>\n",
+            svg.trim(),
+            esc(caption),
+            esc(file)
+        ));
+    }
+    s.push_str("</body>\n</html>\n");
+    s
+}

@@ -19,6 +19,7 @@ pub mod files;
 mod fit_cmd;
 mod html;
 mod html_fit;
+pub mod items;
 pub mod plots;
 pub mod record;
 pub mod report;

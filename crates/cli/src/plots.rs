@@ -816,3 +816,95 @@ pub fn plots(report: &Report, mc: Option<&McReport>) -> Plots {
     }
     p
 }
+
+/// Most items drawn in the plot of a table of items (the tables hold all).
+const MOST_ITEMS: usize = 2000;
+
+/// Each item's value of measurand `k` with its coverage interval (y ± U, or
+/// the Monte Carlo interval when that is reported) against the tolerance
+/// limits, items in the table's order.
+pub(crate) fn items_svg(items: &[crate::items::Evaluated], k: usize) -> Result<String, String> {
+    let shown = &items[..items.len().min(MOST_ITEMS)];
+    let pts: Vec<(f64, f64, f64, f64)> = shown
+        .iter()
+        .enumerate()
+        .map(|(i, e)| {
+            let r = &e.report.results[k].reported;
+            (
+                (i + 1) as f64,
+                r.value,
+                r.coverage_interval[0],
+                r.coverage_interval[1],
+            )
+        })
+        .collect();
+    let first = &items[0].report.results[k];
+    let limits: Vec<f64> = first
+        .conformity
+        .as_ref()
+        .map(|c| {
+            [c.lower_limit, c.upper_limit]
+                .into_iter()
+                .flatten()
+                .collect()
+        })
+        .unwrap_or_default();
+    let (y0, y1) = span(
+        pts.iter()
+            .flat_map(|p| [p.2, p.3])
+            .chain(limits.iter().copied()),
+        0.06,
+    );
+    let n = pts.len();
+    let unit = first.unit.as_deref();
+    let mut svg = String::new();
+    {
+        let (plot, side) = canvas(&mut svg)?;
+        let mut chart = chart(
+            &plot,
+            &format!("{} of {} items", first.name, items.len()),
+            axis("items plot", 0.0, n as f64 + 1.0)?,
+            axis("items plot", y0, y1)?,
+            (
+                "item (in the table's order)",
+                &axis_label(&first.name, unit),
+            ),
+        )?;
+        let dot = if n > 200 { 2 } else { 4 };
+        chart
+            .draw_series(pts.iter().map(|&(x, _, lo, hi)| {
+                PathElement::new(vec![(x, lo), (x, hi)], MID.stroke_width(1))
+            }))
+            .map_err(perr)?;
+        chart
+            .draw_series(
+                pts.iter()
+                    .map(|&(x, y, ..)| Circle::new((x, y), dot, DARK.filled())),
+            )
+            .map_err(perr)?;
+        for &l in &limits {
+            chart
+                .draw_series(std::iter::once(PathElement::new(
+                    vec![(0.0, l), (n as f64 + 1.0, l)],
+                    DARK.stroke_width(3),
+                )))
+                .map_err(perr)?;
+        }
+        let mut entries = vec![
+            (Mark::Dot, "measured value".to_string()),
+            (Mark::Line(MID, 1), "coverage interval (y ± U)".into()),
+        ];
+        if !limits.is_empty() {
+            entries.push((Mark::Line(DARK, 3), "tolerance limits".into()));
+        }
+        if items.len() > MOST_ITEMS {
+            entries.push((
+                Mark::Line(WHITE, 1),
+                format!("the first {MOST_ITEMS} of {} items are drawn", items.len()),
+            ));
+        }
+        legend(&side, &entries)?;
+        plot.present().map_err(perr)?;
+    }
+    Ok(svg)
+}

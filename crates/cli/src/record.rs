@@ -142,7 +142,9 @@ impl Record {
 
     /// As HTML: a table, then the signing block.
     pub fn html(&self, esc: impl Fn(&str) -> String) -> String {
-        let mut s = String::from("<h2>Record of the evaluation</h2>\n<table class=\"record\">\n");
+        let mut s = String::from(
+            "<h2 id=\"record\">Record of the evaluation</h2>\n<table class=\"record\">\n",
+        );
         for (k, v) in self.rows() {
             s.push_str(&format!(
                 "<tr><th>{}</th><td>{}</td></tr>\n",

@@ -20,7 +20,7 @@ fn opt(v: Option<f64>) -> String {
 /// A number for a table another program reads: every digit of the f64 in
 /// its shortest form, with an exponent only far from 1 (`2830628.82…`,
 /// `1.6e-5`).
-fn table_number(v: f64) -> String {
+pub(crate) fn table_number(v: f64) -> String {
     if v == 0.0 || (v.abs() >= 1e-4 && v.abs() < 1e15) {
         format!("{v}")
     } else {

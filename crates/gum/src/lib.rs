@@ -32,6 +32,7 @@
 
 #![warn(missing_docs)]
 
+pub mod batch;
 pub mod builder;
 pub mod check;
 pub mod conformity;

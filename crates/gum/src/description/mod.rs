@@ -31,7 +31,7 @@ use crate::conformity::Specification;
 use crate::coverage::DofRounding;
 
 mod file;
-pub use file::KeyProblem;
+pub use file::{item_key_kind, KeyProblem, KeyValue};
 pub(crate) use file::{InputKeys, KeyContext, SpecificationKeys};
 
 /// A whole model as data: what a model file holds.

@@ -821,7 +821,13 @@ impl<'a> Context<'a> {
         f: &Expr,
         chain: &Chain,
     ) -> Result<std::sync::Arc<Vec<Plan>>, PropagationError> {
-        if let Some(p) = self.cache.plans.read().ok().and_then(|c| c.get(&m.name).cloned()) {
+        if let Some(p) = self
+            .cache
+            .plans
+            .read()
+            .ok()
+            .and_then(|c| c.get(&m.name).cloned())
+        {
             return Ok(p);
         }
         let through_measurands = m
@@ -856,12 +862,27 @@ impl<'a> Context<'a> {
     }
 
     /// ∂(own formula of `m`)/∂w, from the cache when it holds it.
-    fn own_derivative(&self, m: &Measurand, w: &str) -> Result<std::sync::Arc<Derived>, PropagationError> {
+    fn own_derivative(
+        &self,
+        m: &Measurand,
+        w: &str,
+    ) -> Result<std::sync::Arc<Derived>, PropagationError> {
         let key = (m.name.clone(), w.to_string());
-        if let Some(d) = self.cache.own.read().ok().and_then(|c| c.get(&key).cloned()) {
+        if let Some(d) = self
+            .cache
+            .own
+            .read()
+            .ok()
+            .and_then(|c| c.get(&key).cloned())
+        {
             return Ok(d);
         }
-        let d = checked_derivative(&m.formula, w, self.opts.limits.max_derivative_nodes, &m.name)?;
+        let d = checked_derivative(
+            &m.formula,
+            w,
+            self.opts.limits.max_derivative_nodes,
+            &m.name,
+        )?;
         let d = std::sync::Arc::new(derived(d));
         if let Ok(mut c) = self.cache.own.write() {
             c.insert(key, d.clone());
@@ -1007,9 +1028,7 @@ impl<'a> Context<'a> {
             .used
             .iter()
             .filter(|&&i| self.u[i] > 0.0)
-            .filter(|&&i| {
-                first.derivatives[i].as_ref().is_some_and(|d| !d.is_zero())
-            })
+            .filter(|&&i| first.derivatives[i].as_ref().is_some_and(|d| !d.is_zero()))
             .map(|&i| self.model.inputs[i].name.as_str())
             .collect();
         if uncertain.is_empty() {

@@ -15,7 +15,7 @@ fn unknown_input(n: &str, index: &HashMap<&str, usize>) -> String {
 }
 
 impl Validator<'_, '_> {
-    pub(super) fn correlations(
+    pub(crate) fn correlations(
         &self,
         d: &ModelDescription,
         inputs: &[Input],

@@ -75,7 +75,12 @@ impl Validator<'_, '_> {
         })
     }
 
-    fn input(&self, d: &InputDescription, path: &str, fits: &[NamedFit]) -> Result<Input> {
+    pub(crate) fn input(
+        &self,
+        d: &InputDescription,
+        path: &str,
+        fits: &[NamedFit],
+    ) -> Result<Input> {
         let mut input = Input {
             name: d.name.clone(),
             estimate: 0.0,
@@ -412,7 +417,7 @@ impl Validator<'_, '_> {
 
     /// Convert an input given in its unit to coherent SI: values with the
     /// offset (°C to K), uncertainties and half-widths with the factor only.
-    fn to_si(&self, mut input: Input, path: &str) -> Result<Input> {
+    pub(crate) fn to_si(&self, mut input: Input, path: &str) -> Result<Input> {
         let Some(text) = input.unit.clone() else {
             return Ok(input);
         };
