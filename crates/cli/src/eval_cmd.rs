@@ -141,6 +141,7 @@ pub(crate) fn evaluate(
             coverage_probability: coverage,
             second_order,
             limits: crate::limits()?,
+            ..Options::default()
         },
     )
     .map(|mut r| {
@@ -190,10 +191,13 @@ fn run_items(
         }
     }
     let settings = mc_settings(a)?;
+    // Statements in words are shown by JSON and report folders only; the
+    // figures and verdicts do not depend on them.
     let opts = Options {
         coverage_probability: a.coverage,
         second_order: a.second_order,
         limits: crate::limits()?,
+        statements: matches!(a.format, Format::Json) || a.report.is_some(),
     };
     let record = a.report.as_ref().map(|_| {
         let mut s = eval_settings(a, &model, None);

@@ -829,25 +829,15 @@ pub(crate) fn items_svg(items: &[crate::items::Evaluated], k: usize) -> Result<S
         .iter()
         .enumerate()
         .map(|(i, e)| {
-            let r = &e.report.results[k].reported;
-            (
-                (i + 1) as f64,
-                r.value,
-                r.coverage_interval[0],
-                r.coverage_interval[1],
-            )
+            let r = &e.results[k];
+            ((i + 1) as f64, r.value, r.interval[0], r.interval[1])
         })
         .collect();
-    let first = &items[0].report.results[k];
+    let first = &items[0].results[k];
     let limits: Vec<f64> = first
         .conformity
         .as_ref()
-        .map(|c| {
-            [c.lower_limit, c.upper_limit]
-                .into_iter()
-                .flatten()
-                .collect()
-        })
+        .map(|c| [c.lower, c.upper].into_iter().flatten().collect())
         .unwrap_or_default();
     let (y0, y1) = span(
         pts.iter()

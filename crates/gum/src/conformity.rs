@@ -367,6 +367,28 @@ pub fn assess(
     coverage_probability: f64,
     unit: Option<&str>,
 ) -> Result<Conformity, ConformityError> {
+    let mut c = assess_figures(
+        spec,
+        belief,
+        expanded_uncertainty,
+        coverage_factor,
+        coverage_probability,
+        unit,
+    )?;
+    c.statement = statement(&c, belief, expanded_uncertainty, unit);
+    Ok(c)
+}
+
+/// [`assess`] without the statement in words (left empty): every figure
+/// and the verdict, for evaluations whose statements are not shown.
+pub fn assess_figures(
+    spec: &Specification,
+    belief: Belief,
+    expanded_uncertainty: f64,
+    coverage_factor: f64,
+    coverage_probability: f64,
+    unit: Option<&str>,
+) -> Result<Conformity, ConformityError> {
     let (lo, hi) = (spec.lower, spec.upper);
     if !belief.value.is_finite() || !belief.standard_uncertainty.is_finite() {
         return Err(ConformityError(
@@ -464,7 +486,7 @@ pub fn assess(
                 .to_string(),
         );
     }
-    let mut c = Conformity {
+    let c = Conformity {
         lower_limit: lo,
         upper_limit: hi,
         rule: spec.rule,
@@ -482,7 +504,6 @@ pub fn assess(
         statement: String::new(),
         notes,
     };
-    c.statement = statement(&c, belief, expanded_uncertainty, unit);
     Ok(c)
 }
 

@@ -243,11 +243,29 @@ pub fn check_coverage_probability(p: f64) -> Result<(), String> {
 /// (1 + p)/2 quantile of Student's t with ν dof, or of the standard normal
 /// for infinite dof (JCGM 100:2008, G.3.2 and G.3.4).
 pub fn coverage_factor(p: f64, dof: Dof) -> f64 {
+    // Evaluations of many items ask for the same few (p, ν) again and
+    // again; the quantile is a pure function of them, so each thread keeps
+    // the ones it computed (at most a few hundred entries).
+    thread_local! {
+        static KNOWN: std::cell::RefCell<std::collections::HashMap<(u64, u64), f64>> =
+            std::cell::RefCell::new(std::collections::HashMap::new());
+    }
+    let key = (p.to_bits(), dof.map_or(u64::MAX, f64::to_bits));
+    if let Some(k) = KNOWN.with(|m| m.borrow().get(&key).copied()) {
+        return k;
+    }
     let q = 0.5 * (1.0 + p);
-    match dof {
+    let k = match dof {
         None => normal_quantile(q),
         Some(nu) => student_t_quantile(q, nu),
-    }
+    };
+    KNOWN.with(|m| {
+        let mut m = m.borrow_mut();
+        if m.len() < 512 {
+            m.insert(key, k);
+        }
+    });
+    k
 }
 
 /// Standard normal distribution function, accurate in both tails (libm's

@@ -52,12 +52,67 @@ pub(crate) struct Item {
     pub changed: Vec<InputDescription>,
 }
 
+/// The conformity of one item's result: what tables and the summary use.
+#[derive(Clone, Debug)]
+pub(crate) struct ItemConformity {
+    pub verdict: incertus_gum::conformity::Verdict,
+    pub risk_kind: incertus_gum::conformity::RiskKind,
+    pub specific_risk: f64,
+    pub lower: Option<f64>,
+    pub upper: Option<f64>,
+}
+
+/// One measurand's reported result for one item, as tables, the summary
+/// and the plots use it (the full result is kept only for JSON and report
+/// folders, so that a large table does not hold every budget in memory).
+#[derive(Clone, Debug)]
+pub(crate) struct ItemResult {
+    pub name: String,
+    pub unit: Option<String>,
+    pub value: f64,
+    pub standard_uncertainty: f64,
+    pub expanded_uncertainty: f64,
+    pub coverage_probability: f64,
+    pub interval: [f64; 2],
+    pub coverage_factor: f64,
+    pub dof_used: Option<f64>,
+    pub first_order: bool,
+    pub conformity: Option<ItemConformity>,
+}
+
+impl ItemResult {
+    fn of(r: &incertus_gum::MeasurandResult) -> Self {
+        let rep = &r.reported;
+        ItemResult {
+            name: r.name.clone(),
+            unit: r.unit.clone(),
+            value: rep.value,
+            standard_uncertainty: rep.standard_uncertainty,
+            expanded_uncertainty: rep.expanded_uncertainty,
+            coverage_probability: rep.coverage_probability,
+            interval: rep.coverage_interval,
+            coverage_factor: r.coverage_factor,
+            dof_used: r.effective_dof_used,
+            first_order: rep.method == incertus_gum::Method::FirstOrder,
+            conformity: r.conformity.as_ref().map(|c| ItemConformity {
+                verdict: c.verdict,
+                risk_kind: c.specific_risk_kind,
+                specific_risk: c.specific_risk,
+                lower: c.lower_limit,
+                upper: c.upper_limit,
+            }),
+        }
+    }
+}
+
 /// An item evaluated.
 #[derive(Debug)]
 pub(crate) struct Evaluated {
     pub id: String,
     pub line: u64,
-    pub report: Report,
+    pub results: Vec<ItemResult>,
+    /// The full results, when the output needs them (JSON, report folder).
+    pub report: Option<Report>,
 }
 
 /// The columns of the table from its header.
@@ -189,13 +244,15 @@ pub(crate) fn read_items(
         .clone();
     let cols = columns(&header, batch, item_column, table)?;
     let has_item = cols.iter().any(|c| matches!(c, Column::Item));
-    let mut items: Vec<Item> = Vec::new();
+    let item_col = cols.iter().position(|c| matches!(c, Column::Item));
+    // First pass, in order: the records, their lines and identifiers.
+    let mut rows: Vec<(csv::StringRecord, u64, String)> = Vec::new();
     let mut ids: std::collections::HashMap<String, u64> = std::collections::HashMap::new();
     for (n, record) in reader.records().enumerate() {
         let record = record
             .map_err(|e| Failure::input(format!("{}: {}", table.display(), csv_error(&e))))?;
         let line = record.position().map_or(n as u64 + 2, |p| p.line());
-        if items.len() >= max_rows {
+        if rows.len() >= max_rows {
             return Err(Failure::input(format!(
                 "{}: more than {max_rows} items; the limit is INCERTUS_MAX_DATA_ROWS",
                 table.display()
@@ -204,75 +261,31 @@ pub(crate) fn read_items(
         if record.iter().all(|c| c.trim().is_empty()) {
             continue;
         }
-        let id = if has_item {
-            let k = cols
-                .iter()
-                .position(|c| matches!(c, Column::Item))
-                .expect("has_item");
-            record.get(k).unwrap_or("").trim().to_string()
-        } else {
-            (items.len() + 1).to_string()
+        let id = match item_col {
+            Some(k) => record.get(k).unwrap_or("").trim().to_string(),
+            None => (rows.len() + 1).to_string(),
         };
-        let here = |col: usize, msg: String| {
-            Failure::input(format!(
-                "{}:{line}: item {id}, column `{}`: {msg}",
-                table.display(),
-                header.get(col).unwrap_or("").trim()
-            ))
-        };
-        if id.is_empty() {
-            let k = cols
-                .iter()
-                .position(|c| matches!(c, Column::Item))
-                .expect("has_item");
-            return Err(here(k, "the item has no identifier".into()));
+        let title = header.get(item_col.unwrap_or(0)).unwrap_or("").trim();
+        if has_item && id.is_empty() {
+            return Err(Failure::input(format!(
+                "{}:{line}: column `{title}`: the item has no identifier",
+                table.display()
+            )));
         }
         if let Some(first) = ids.insert(id.clone(), line) {
-            let k = cols
-                .iter()
-                .position(|c| matches!(c, Column::Item))
-                .unwrap_or(0);
-            return Err(here(
-                k,
-                format!("the item `{id}` is also on line {first}; identifiers must differ"),
-            ));
+            return Err(Failure::input(format!(
+                "{}:{line}: item {id}, column `{title}`: the item `{id}` is also on line {first}; identifiers must differ",
+                table.display()
+            )));
         }
-        // The keys of each input this row sets, in the columns' order.
-        let mut by_input: Vec<InputCells> = Vec::new();
-        for (k, col) in cols.iter().enumerate() {
-            let Column::Key(input, key) = col else {
-                continue;
-            };
-            let cell = record.get(k).unwrap_or("").trim();
-            if cell.is_empty() {
-                return Err(here(
-                    k,
-                    "the cell is empty; every item gives every column of the table (the model's value is never taken for a missing one)".into(),
-                ));
-            }
-            let v = cell_value(key, cell).map_err(|m| here(k, m))?;
-            match by_input.iter_mut().find(|(i, ..)| i == input) {
-                Some((_, keys, at)) => {
-                    keys.push((key.clone(), v));
-                    at.push(k);
-                }
-                None => by_input.push((input.clone(), vec![(key.clone(), v)], vec![k])),
-            }
-        }
-        let mut changed = Vec::with_capacity(by_input.len());
-        for (input, keys, at) in by_input {
-            let base = batch.input(&input).expect("columns name inputs");
-            let d = base.with_keys(&keys).map_err(|(key, msg)| {
-                let col = keys
-                    .iter()
-                    .position(|(k, _)| *k == key)
-                    .map_or(at[0], |p| at[p]);
-                here(col, format!("`{input}`: {msg}"))
-            })?;
-            changed.push(d);
-        }
-        items.push(Item { id, line, changed });
+        rows.push((record, line, id));
     }
+    // Second pass, in parallel: every cell read and applied to its input.
+    let made: Vec<Result<Item, Failure>> = rows
+        .into_par_iter()
+        .map(|(record, line, id)| item_of(&record, line, id, &cols, &header, batch, table))
+        .collect();
+    let items: Vec<Item> = made.into_iter().collect::<Result<_, _>>()?;
     if items.is_empty() {
         return Err(Failure::input(format!(
             "{}: the table has no items (a header line and one line per item)",
@@ -280,6 +293,60 @@ pub(crate) fn read_items(
         )));
     }
     Ok(items)
+}
+
+/// One item from its record: every cell read and the inputs it changes.
+fn item_of(
+    record: &csv::StringRecord,
+    line: u64,
+    id: String,
+    cols: &[Column],
+    header: &csv::StringRecord,
+    batch: &Batch,
+    table: &Path,
+) -> Result<Item, Failure> {
+    let here = |col: usize, msg: String| {
+        Failure::input(format!(
+            "{}:{line}: item {id}, column `{}`: {msg}",
+            table.display(),
+            header.get(col).unwrap_or("").trim()
+        ))
+    };
+    // The keys of each input this row sets, in the columns' order.
+    let mut by_input: Vec<InputCells> = Vec::new();
+    for (k, col) in cols.iter().enumerate() {
+        let Column::Key(input, key) = col else {
+            continue;
+        };
+        let cell = record.get(k).unwrap_or("").trim();
+        if cell.is_empty() {
+            return Err(here(
+                k,
+                "the cell is empty; every item gives every column of the table (the model's value is never taken for a missing one)".into(),
+            ));
+        }
+        let v = cell_value(key, cell).map_err(|m| here(k, m))?;
+        match by_input.iter_mut().find(|(i, ..)| i == input) {
+            Some((_, keys, at)) => {
+                keys.push((key.clone(), v));
+                at.push(k);
+            }
+            None => by_input.push((input.clone(), vec![(key.clone(), v)], vec![k])),
+        }
+    }
+    let mut changed = Vec::with_capacity(by_input.len());
+    for (input, keys, at) in by_input {
+        let base = batch.input(&input).expect("columns name inputs");
+        let d = base.with_keys(&keys).map_err(|(key, msg)| {
+            let col = keys
+                .iter()
+                .position(|(k, _)| *k == key)
+                .map_or(at[0], |p| at[p]);
+            here(col, format!("`{input}`: {msg}"))
+        })?;
+        changed.push(d);
+    }
+    Ok(Item { id, line, changed })
 }
 
 fn csv_error(e: &csv::Error) -> String {
@@ -318,6 +385,7 @@ pub(crate) fn evaluate_items(
     batch: &Batch,
     mc: Option<&incertus_mc::Settings>,
     table: &Path,
+    keep_full: bool,
 ) -> Result<Vec<Evaluated>, Failure> {
     let results: Vec<Result<Evaluated, (usize, ItemError)>> = items
         .par_iter()
@@ -343,11 +411,14 @@ pub(crate) fn evaluate_items(
                 })?;
                 incertus_mc::attach(&model, &mut report, &m);
             }
-            crate::name_options(&mut report);
+            if keep_full {
+                crate::name_options(&mut report);
+            }
             Ok(Evaluated {
                 id: it.id.clone(),
                 line: it.line,
-                report,
+                results: report.results.iter().map(ItemResult::of).collect(),
+                report: keep_full.then_some(report),
             })
         })
         .collect();
@@ -406,7 +477,8 @@ pub(crate) fn run(
         limits.max_data_rows,
         limits.max_file_bytes,
     )?;
-    let evaluated = evaluate_items(&items, &batch, mc.as_ref(), table)?;
+    let keep_full = format == output::Format::Json || report_dir.is_some();
+    let evaluated = evaluate_items(&items, &batch, mc.as_ref(), table, keep_full)?;
     let summary = summarise(&evaluated);
     let shown = output::render(format, &batch, &evaluated, &summary, style);
     let _ = out.write_all(shown.as_bytes());

@@ -6,7 +6,6 @@
 
 use incertus_gum::batch::Batch;
 use incertus_gum::rounding::{significant_si as significant, write};
-use incertus_gum::Method;
 
 use super::{Evaluated, RangeFit, Summary};
 use crate::report::{Style, Table};
@@ -33,8 +32,8 @@ fn unit_of(u: &Option<String>) -> String {
 pub(crate) fn items_table(items: &[Evaluated], style: Style, si: bool) -> Table {
     let with_spec = items
         .iter()
-        .any(|e| e.report.results.iter().any(|r| r.conformity.is_some()));
-    let several = items.first().is_some_and(|e| e.report.results.len() > 1);
+        .any(|e| e.results.iter().any(|r| r.conformity.is_some()));
+    let several = items.first().is_some_and(|e| e.results.len() > 1);
     let mut header = vec!["item".to_string()];
     if several {
         header.push("measurand".into());
@@ -45,9 +44,8 @@ pub(crate) fn items_table(items: &[Evaluated], style: Style, si: bool) -> Table 
     }
     let mut rows = Vec::new();
     for e in items {
-        for r in &e.report.results {
-            let rep = &r.reported;
-            let w = write(rep.value, rep.expanded_uncertainty, style.digits);
+        for r in &e.results {
+            let w = write(r.value, r.expanded_uncertainty, style.digits);
             let mut row = vec![e.id.clone()];
             if several {
                 row.push(r.name.clone());
@@ -56,7 +54,7 @@ pub(crate) fn items_table(items: &[Evaluated], style: Style, si: bool) -> Table 
             row.extend([
                 w.with_power(&w.value),
                 w.with_power(&w.uncertainty),
-                if rep.method == Method::FirstOrder {
+                if r.first_order {
                     significant(r.coverage_factor, 3)
                 } else {
                     "MC".into()
@@ -73,7 +71,7 @@ pub(crate) fn items_table(items: &[Evaluated], style: Style, si: bool) -> Table 
                         row.push(c.verdict.to_string());
                         row.push(format!(
                             "{} {}",
-                            c.specific_risk_kind,
+                            c.risk_kind,
                             incertus_gum::conformity::probability(c.specific_risk)
                         ));
                     }
@@ -171,24 +169,23 @@ pub(crate) fn csv(items: &[Evaluated]) -> String {
          coverage_probability,effective_dof,method,verdict,specific_risk\n",
     );
     for e in items {
-        for r in &e.report.results {
-            let rep = &r.reported;
-            let first = rep.method == Method::FirstOrder;
+        for r in &e.results {
+            let first = r.first_order;
             let fields = [
                 csv_field(&e.id),
                 csv_field(&r.name),
                 csv_field(r.unit.as_deref().unwrap_or("")),
-                table_number(rep.value),
-                table_number(rep.standard_uncertainty),
-                table_number(rep.expanded_uncertainty),
+                table_number(r.value),
+                table_number(r.standard_uncertainty),
+                table_number(r.expanded_uncertainty),
                 if first {
                     table_number(r.coverage_factor)
                 } else {
                     String::new()
                 },
-                table_number(rep.coverage_probability),
+                table_number(r.coverage_probability),
                 if first {
-                    r.effective_dof_used.map(table_number).unwrap_or_default()
+                    r.dof_used.map(table_number).unwrap_or_default()
                 } else {
                     String::new()
                 },
@@ -215,7 +212,7 @@ pub(crate) fn json(items: &[Evaluated], summary: &Summary) -> serde_json::Value 
         "items": items.iter().map(|e| serde_json::json!({
             "item": e.id,
             "line": e.line,
-            "results": serde_json::to_value(&e.report.results).expect("plain data"),
+            "results": e.report.as_ref().map(|r| serde_json::to_value(&r.results).expect("plain data")),
         })).collect::<Vec<_>>(),
         "summary": serde_json::to_value(summary).expect("plain data"),
         "program": {"name": "incertus", "version": env!("CARGO_PKG_VERSION")},

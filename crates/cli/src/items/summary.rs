@@ -144,14 +144,10 @@ pub(crate) fn summarise(items: &[Evaluated]) -> Summary {
         };
     };
     let mut measurands = Vec::new();
-    for (k, m) in first.report.results.iter().enumerate() {
-        let results: Vec<&incertus_gum::MeasurandResult> =
-            items.iter().map(|e| &e.report.results[k]).collect();
-        let values: Vec<f64> = results.iter().map(|r| r.reported.value).collect();
-        let big_u: Vec<f64> = results
-            .iter()
-            .map(|r| r.reported.expanded_uncertainty)
-            .collect();
+    for (k, m) in first.results.iter().enumerate() {
+        let results: Vec<&super::ItemResult> = items.iter().map(|e| &e.results[k]).collect();
+        let values: Vec<f64> = results.iter().map(|r| r.value).collect();
+        let big_u: Vec<f64> = results.iter().map(|r| r.expanded_uncertainty).collect();
         let with_spec = results.iter().any(|r| r.conformity.is_some());
         let (mut accepted, mut rejected, mut expected) = (0usize, 0usize, 0.0f64);
         for r in &results {
@@ -159,7 +155,7 @@ pub(crate) fn summarise(items: &[Evaluated]) -> Summary {
                 match c.verdict {
                     Verdict::Accepted => {
                         accepted += 1;
-                        if c.specific_risk_kind == RiskKind::Consumer {
+                        if c.risk_kind == RiskKind::Consumer {
                             expected += c.specific_risk;
                         }
                     }

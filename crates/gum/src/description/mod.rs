@@ -31,8 +31,10 @@ use crate::conformity::Specification;
 use crate::coverage::DofRounding;
 
 mod file;
-pub use file::{item_key_kind, KeyProblem, KeyValue};
+mod items;
+pub use file::KeyProblem;
 pub(crate) use file::{InputKeys, KeyContext, SpecificationKeys};
+pub use items::{item_key_kind, KeyValue};
 
 /// A whole model as data: what a model file holds.
 #[derive(Clone, Debug, Default, PartialEq, serde::Serialize, serde::Deserialize)]

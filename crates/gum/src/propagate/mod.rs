@@ -19,52 +19,17 @@
 use std::collections::HashMap;
 
 use incertus_expr::{derivative, print, simplify, Expr, Kind};
+
+mod cache;
+pub use cache::DerivativeCache;
+use cache::{Derived, Plan};
 use serde::Serialize;
 
 use crate::coverage::{coverage_factor, dof_used, effective_dof_correlated};
 use crate::model::{Correlation, Distribution, Dof, Evaluation, Measurand, Model};
 
-/// A derivative of a measurand's formula, kept for evaluations that share
-/// the model's formulas.
-#[derive(Debug)]
-pub(crate) struct Derived {
-    expr: Expr,
-    text: String,
-    /// Whether it simplifies to 0 (the input does not really enter),
-    /// found when first asked.
-    zero: std::sync::OnceLock<bool>,
-}
-
-impl Derived {
-    fn is_zero(&self) -> bool {
-        *self
-            .zero
-            .get_or_init(|| matches!(simplify(&self.expr).kind, Kind::Num(v) if v == 0.0))
-    }
-}
-
-/// How one input enters one measurand's formula.
-#[derive(Clone, Debug)]
-enum Plan {
-    NotUsed,
-    ChainRule,
-    Direct(std::sync::Arc<Derived>),
-}
-
-/// The symbolic work of a model, done once and shared by evaluations of
-/// the same formulas at other input values (`crate::batch`): the formulas
-/// written out in the inputs, and per measurand how each input enters it
-/// with its derivative. A fresh cache for every `propagate`; filled on
-/// first use, read by later evaluations from any thread.
-#[derive(Debug, Default)]
-pub struct DerivativeCache {
-    expanded: std::sync::OnceLock<Vec<(String, Expr)>>,
-    plans: std::sync::RwLock<HashMap<String, std::sync::Arc<Vec<Plan>>>>,
-    own: std::sync::RwLock<HashMap<(String, String), std::sync::Arc<Derived>>>,
-}
-
 /// Options of one evaluation.
-#[derive(Clone, Debug, Default)]
+#[derive(Clone, Debug)]
 pub struct Options {
     /// Overrides the model's coverage probability.
     pub coverage_probability: Option<f64>,
@@ -72,6 +37,21 @@ pub struct Options {
     pub second_order: bool,
     /// Size limits (the derivative limit is used here).
     pub limits: crate::limits::Limits,
+    /// Write the conformity statement in words (true by default; false
+    /// leaves it empty, for evaluations of many items whose statements are
+    /// not shown: every figure and verdict stays the same).
+    pub statements: bool,
+}
+
+impl Default for Options {
+    fn default() -> Self {
+        Options {
+            coverage_probability: None,
+            second_order: false,
+            limits: crate::limits::Limits::default(),
+            statements: true,
+        }
+    }
 }
 
 /// ∂e/∂w, refused before it is built when it would exceed the limit.
@@ -624,14 +604,6 @@ pub fn propagate_cached(
     })
 }
 
-fn derived(expr: Expr) -> Derived {
-    Derived {
-        text: print(&expr),
-        zero: std::sync::OnceLock::new(),
-        expr,
-    }
-}
-
 /// What every measurand's evaluation shares.
 struct Context<'a> {
     model: &'a Model,
@@ -810,84 +782,6 @@ impl<'a> Context<'a> {
             uc,
             warnings,
         })
-    }
-
-    /// How each input enters the measurand `m` (formula `f` in the inputs):
-    /// not at all, by the chain rule, or through its derivative; from the
-    /// cache when an earlier evaluation of the same formulas made it.
-    fn plan(
-        &self,
-        m: &Measurand,
-        f: &Expr,
-        chain: &Chain,
-    ) -> Result<std::sync::Arc<Vec<Plan>>, PropagationError> {
-        if let Some(p) = self
-            .cache
-            .plans
-            .read()
-            .ok()
-            .and_then(|c| c.get(&m.name).cloned())
-        {
-            return Ok(p);
-        }
-        let through_measurands = m
-            .formula
-            .names()
-            .iter()
-            .any(|w| chain.row_of.contains_key(w.as_str()));
-        let mut plan = Vec::with_capacity(self.model.inputs.len());
-        for input in &self.model.inputs {
-            let name = &input.name;
-            if !f.depends_on(name) {
-                plan.push(Plan::NotUsed);
-                continue;
-            }
-            // A chain of measurands: the derivative of the formula written
-            // out grows with the square of the chain; the chain rule over
-            // each measurand's own formula stays linear (same value to the
-            // last bits, JCGM 100:2008, 5.1.3).
-            if through_measurands && incertus_expr::derivative_size(f, name) > CHAIN_RULE_FROM {
-                plan.push(Plan::ChainRule);
-                continue;
-            }
-            let d = checked_derivative(f, name, self.opts.limits.max_derivative_nodes, &m.name)
-                .map_err(|e| e.at(m.line))?;
-            plan.push(Plan::Direct(std::sync::Arc::new(derived(d))));
-        }
-        let plan = std::sync::Arc::new(plan);
-        if let Ok(mut c) = self.cache.plans.write() {
-            c.insert(m.name.clone(), plan.clone());
-        }
-        Ok(plan)
-    }
-
-    /// ∂(own formula of `m`)/∂w, from the cache when it holds it.
-    fn own_derivative(
-        &self,
-        m: &Measurand,
-        w: &str,
-    ) -> Result<std::sync::Arc<Derived>, PropagationError> {
-        let key = (m.name.clone(), w.to_string());
-        if let Some(d) = self
-            .cache
-            .own
-            .read()
-            .ok()
-            .and_then(|c| c.get(&key).cloned())
-        {
-            return Ok(d);
-        }
-        let d = checked_derivative(
-            &m.formula,
-            w,
-            self.opts.limits.max_derivative_nodes,
-            &m.name,
-        )?;
-        let d = std::sync::Arc::new(derived(d));
-        if let Ok(mut c) = self.cache.own.write() {
-            c.insert(key, d.clone());
-        }
-        Ok(d)
     }
 
     /// ∂y/∂x_i by the chain rule: Σ_w ∂f/∂w · ∂w/∂x_i over the names w of
@@ -1121,7 +1015,13 @@ impl<'a> Context<'a> {
             },
         };
         if let Some(spec) = &m.specification {
-            assess_conformity(&mut result, spec, p, m.unit.as_deref())?;
+            assess_conformity(
+                &mut result,
+                spec,
+                p,
+                m.unit.as_deref(),
+                self.opts.statements,
+            )?;
         }
         Ok(result)
     }

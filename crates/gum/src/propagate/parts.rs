@@ -43,13 +43,19 @@ pub(super) fn assess_conformity(
     spec: &crate::conformity::Specification,
     p: f64,
     unit: Option<&str>,
+    words: bool,
 ) -> Result<(), PropagationError> {
     let belief = crate::conformity::Belief {
         value: r.value,
         standard_uncertainty: r.expanded_uncertainty / r.coverage_factor,
         dof: r.effective_dof_used,
     };
-    let mut c = crate::conformity::assess(
+    let assess = if words {
+        crate::conformity::assess
+    } else {
+        crate::conformity::assess_figures
+    };
+    let mut c = assess(
         spec,
         belief,
         r.expanded_uncertainty,

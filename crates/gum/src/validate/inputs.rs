@@ -44,6 +44,9 @@ impl Validator<'_, '_> {
 
     /// A number that must be positive (or zero, with `allow_zero`).
     fn positive(&self, path: &str, key: &str, v: f64, allow_zero: bool) -> Result<()> {
+        if v.is_finite() && (v > 0.0 || (allow_zero && v == 0.0)) {
+            return Ok(()); // (the key path is made only for an error)
+        }
         let p = join(path, key);
         self.finite(&p, v)?;
         if v < 0.0 || (!allow_zero && v == 0.0) {
@@ -98,7 +101,7 @@ impl Validator<'_, '_> {
             line: self.origin.line(path),
         };
         let value = |v: f64| -> Result<f64> {
-            self.finite(&join(path, "value"), v)?;
+            self.finite_at(path, "value", v)?;
             Ok(v)
         };
         match &d.evaluation {
@@ -198,7 +201,7 @@ impl Validator<'_, '_> {
     ) -> Result<(f64, Distribution)> {
         let (estimate, half_width) = match *limits {
             LimitsGiven::HalfWidth { value, half_width } => {
-                self.finite(&join(path, "value"), value)?;
+                self.finite_at(path, "value", value)?;
                 self.positive(path, "half_width", half_width, true)?;
                 (value, half_width)
             }
@@ -207,8 +210,8 @@ impl Validator<'_, '_> {
                 upper,
                 value,
             } => {
-                self.finite(&join(path, "lower"), lower)?;
-                self.finite(&join(path, "upper"), upper)?;
+                self.finite_at(path, "lower", lower)?;
+                self.finite_at(path, "upper", upper)?;
                 if upper < lower {
                     let up = join(path, "upper");
                     return Err(self.err(
@@ -222,7 +225,7 @@ impl Validator<'_, '_> {
                 }
                 let mid = 0.5 * (lower + upper);
                 if let Some(v) = value {
-                    self.finite(&join(path, "value"), v)?;
+                    self.finite_at(path, "value", v)?;
                     if (v - mid).abs() > 1e-12 * mid.abs().max(upper - lower) {
                         return Err(self.err(
                             &join(path, "value"),

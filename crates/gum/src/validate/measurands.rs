@@ -172,7 +172,7 @@ impl Validator<'_, '_> {
             }
         }
         if let Some(pr) = s.process {
-            self.finite(&join(path, "process_mean"), pr.mean)?;
+            self.finite_at(path, "process_mean", pr.mean)?;
             let p = join(path, "process_standard_deviation");
             if !(pr.standard_deviation > 0.0 && pr.standard_deviation.is_finite()) {
                 return Err(self.err(

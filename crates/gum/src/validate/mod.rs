@@ -207,6 +207,15 @@ impl Validator<'_, '_> {
         }
     }
 
+    /// [`Self::finite`] at `path.key`, the path made only for an error.
+    fn finite_at(&self, path: &str, key: &str, v: f64) -> Result<()> {
+        if v.is_finite() {
+            Ok(())
+        } else {
+            self.finite(&join(path, key), v)
+        }
+    }
+
     fn model(&self, d: &ModelDescription) -> Result<Model> {
         let (coverage_probability, dof_rounding) = self.settings(d)?;
         let fits = self.fits(&d.fits)?;
