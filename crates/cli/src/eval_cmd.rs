@@ -71,6 +71,11 @@ pub struct EvalArgs {
     /// when there is one; otherwise rows are numbered)
     #[arg(long, value_name = "COLUMN", requires = "items")]
     item_column: Option<String>,
+    /// Also show the budget of each measurand that uses these intermediate
+    /// measurands in terms of the names of its own formula (the view a hand
+    /// budget with intermediate quantities takes)
+    #[arg(long, value_name = "NAME,...", value_delimiter = ',')]
+    in_terms_of: Vec<String>,
     /// Who evaluated: named in the report's record (blank for signing otherwise)
     #[arg(long, value_name = "NAME")]
     evaluated_by: Option<String>,
@@ -118,6 +123,8 @@ pub struct CheckArgs {
     /// Coverage probability (overrides the model file)
     #[arg(long, value_name = "P")]
     coverage: Option<f64>,
+    #[command(flatten)]
+    budget: crate::sheet::BudgetArgs,
 }
 
 pub(crate) fn load(file: &std::path::Path) -> Result<Model, Failure> {
@@ -277,6 +284,9 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
         Format::BudgetCsv => crate::tables::csv(&report),
     };
     let _ = out.write_all(text.as_bytes());
+    if !a.in_terms_of.is_empty() {
+        let _ = out.write_all(in_terms_of(a, &model, &report)?.as_bytes());
+    }
     if let Some(dir) = &a.report {
         let record = crate::record::Record::new(
             &inputs,
@@ -296,6 +306,54 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
         crate::say_written(matches!(a.format, Format::Text), out, err, dir, &files);
     }
     Ok(())
+}
+
+/// `--in-terms-of`: the budgets in terms of intermediate measurands.
+fn in_terms_of(a: &EvalArgs, model: &Model, report: &Report) -> Result<String, Failure> {
+    for n in &a.in_terms_of {
+        if !model.measurands.iter().any(|m| &m.name == n) {
+            return Err(Failure::input(format!(
+                "--in-terms-of {n}: the model has no measurand `{n}` (intermediate quantities are measurands a later one uses)"
+            )));
+        }
+    }
+    let mut s = String::new();
+    for m in &model.measurands {
+        if !a
+            .in_terms_of
+            .iter()
+            .any(|n| m.formula.depends_on(n) && *n != m.name)
+        {
+            continue;
+        }
+        let r = report
+            .results
+            .iter()
+            .find(|r| r.name == m.name)
+            .expect("a result per measurand");
+        let (t, notes) =
+            crate::sheet::own_formula_budget(model, report, r).map_err(Failure::input)?;
+        s.push_str(&format!(
+            "\nuncertainty budget of {} in terms of {} = {}\n",
+            m.name, m.name, m.formula_text
+        ));
+        s.push_str(&crate::report::aligned_table(&t));
+        for n in notes {
+            s.push_str(&format!("note: {n}\n"));
+        }
+    }
+    if s.is_empty() {
+        return Err(Failure::input(format!(
+            "--in-terms-of {}: no measurand of the model uses {}",
+            a.in_terms_of.join(","),
+            if a.in_terms_of.len() == 1 {
+                "it"
+            } else {
+                "them"
+            }
+        )));
+    }
+    Ok(s)
 }
 
 /// The settings of an evaluation, as its record states them.
@@ -339,6 +397,9 @@ fn eval_settings(
 }
 
 pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
+    if a.budget.budget.is_some() {
+        return crate::sheet::run(&a.file, &a.budget, a.coverage, out);
+    }
     let model = load(&a.file)?;
     let report = evaluate(&a.file, &model, a.coverage, false)?;
     let c = check(&model, &report);

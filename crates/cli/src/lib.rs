@@ -23,6 +23,7 @@ pub mod items;
 pub mod plots;
 pub mod record;
 pub mod report;
+mod sheet;
 mod shell;
 pub mod tables;
 pub mod terminal;

@@ -209,6 +209,11 @@ pub(crate) fn share_note(r: &MeasurandResult) -> Option<String> {
     ))
 }
 
+/// A table as aligned text.
+pub(crate) fn aligned_table(t: &Table) -> String {
+    aligned(&t.all())
+}
+
 fn aligned(rows: &[Vec<String>]) -> String {
     let cols = rows.iter().map(Vec::len).max().unwrap_or(0);
     let width: Vec<usize> = (0..cols)
