@@ -316,136 +316,39 @@ pub(crate) fn check(
         match kind {
             RowKind::Input(b) => {
                 listed.push(b.input.clone());
-                let unit = b.unit.clone().unwrap_or_default();
-                let c_unit = crate::report::sensitivity_unit(r, b);
-                let ci = input_coefficient(model, report, target, b, in_terms_of_intermediates)?;
-                let figures = [
-                    (
-                        Col::Estimate,
-                        format!("estimate of {}", b.input),
-                        b.value,
-                        unit.clone(),
-                    ),
-                    (
-                        Col::StandardUncertainty,
-                        format!("u({})", b.input),
-                        b.standard_uncertainty,
-                        unit,
-                    ),
-                    (Col::Sensitivity, format!("c({})", b.input), ci, c_unit),
-                    (
-                        Col::Contribution,
-                        format!("contribution of {} to u({})", b.input, r.name),
-                        (ci * b.standard_uncertainty).abs(),
-                        y_unit.clone(),
-                    ),
-                ];
-                let mut u_slipped = false;
-                for (k, what, computed, unit) in figures {
-                    let Some((c, x)) = cell(k) else { continue };
-                    if let Some(mut l) = compare_cell(
-                        grid,
-                        ri,
-                        c,
-                        x,
-                        &what,
-                        computed,
-                        &unit,
-                        k == Col::Contribution,
-                    ) {
-                        if !l.agrees {
-                            l.slip = match k {
-                                Col::StandardUncertainty => {
-                                    let s =
-                                        u_slip(model, &b.input, l.stated.unwrap_or(0.0), computed);
-                                    u_slipped = s.is_some();
-                                    s
-                                }
-                                Col::Contribution if u_slipped => {
-                                    Some("follows from the u of this row".into())
-                                }
-                                _ => ratio_slip(l.stated.unwrap_or(0.0), computed),
-                            };
-                        }
-                        if k == Col::Contribution {
-                            stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
-                        }
-                        lines.push(l);
-                    }
-                }
-                if let Some((c, x)) = cell(Col::Dof) {
-                    if let Some(l) = compare_dof(grid, ri, c, x, &format!("ν({})", b.input), b.dof)
-                    {
-                        lines.push(l);
-                    }
-                }
-                if let Some((c, x)) = cell(Col::Distribution) {
-                    if let Some(l) =
-                        compare_distribution(grid, ri, c, x, &b.input, &b.distribution.to_string())
-                    {
-                        lines.push(l);
-                    }
-                }
+                let rc = RowCx {
+                    grid,
+                    ri,
+                    row,
+                    cols,
+                    model,
+                    report,
+                    r,
+                    target,
+                    y_unit: &y_unit,
+                };
+                input_row(
+                    &rc,
+                    b,
+                    in_terms_of_intermediates,
+                    &mut lines,
+                    &mut stated_contributions,
+                )?;
             }
             RowKind::Intermediate(w, c) => {
                 listed.push(w.name.clone());
-                let unit = w.unit.clone().unwrap_or_default();
-                let c_unit = incertus_units::quotient(&y_unit, &unit);
-                let figures = [
-                    (
-                        Col::Estimate,
-                        format!("estimate of {} (intermediate)", w.name),
-                        w.value,
-                        unit.clone(),
-                    ),
-                    (
-                        Col::StandardUncertainty,
-                        format!("u({}) (intermediate)", w.name),
-                        w.standard_uncertainty,
-                        unit,
-                    ),
-                    (Col::Sensitivity, format!("c({})", w.name), c, c_unit),
-                    (
-                        Col::Contribution,
-                        format!("contribution of {} to u({})", w.name, r.name),
-                        (c * w.standard_uncertainty).abs(),
-                        y_unit.clone(),
-                    ),
-                ];
-                let mut u_wrong = false;
-                for (k, what, computed, unit) in figures {
-                    let Some((ci, x)) = cell(k) else { continue };
-                    if let Some(mut l) = compare_cell(
-                        grid,
-                        ri,
-                        ci,
-                        x,
-                        &what,
-                        computed,
-                        &unit,
-                        k == Col::Contribution,
-                    ) {
-                        if !l.agrees {
-                            l.slip = if k == Col::Contribution && u_wrong {
-                                Some("follows from the u of this row".into())
-                            } else {
-                                ratio_slip(l.stated.unwrap_or(0.0), computed)
-                            };
-                            u_wrong |= k == Col::StandardUncertainty;
-                            if k == Col::StandardUncertainty && l.slip.is_none() {
-                                l.slip = Some(format!(
-                                    "the intermediate quantity's own uncertainty: check its budget (`incertus eval` gives u({}) = {})",
-                                    w.name,
-                                    significant(w.standard_uncertainty, 5)
-                                ));
-                            }
-                        }
-                        if k == Col::Contribution {
-                            stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
-                        }
-                        lines.push(l);
-                    }
-                }
+                let rc = RowCx {
+                    grid,
+                    ri,
+                    row,
+                    cols,
+                    model,
+                    report,
+                    r,
+                    target,
+                    y_unit: &y_unit,
+                };
+                intermediate_row(&rc, w, c, &mut lines, &mut stated_contributions);
             }
             RowKind::Result => {
                 for (k, what, computed) in [
@@ -486,6 +389,179 @@ pub(crate) fn check(
         lines,
         notes,
     })
+}
+
+/// What a budget row's check needs.
+struct RowCx<'a> {
+    grid: &'a Grid,
+    ri: usize,
+    row: &'a [Cell],
+    cols: &'a [(usize, Col)],
+    model: &'a Model,
+    report: &'a Report,
+    r: &'a MeasurandResult,
+    target: &'a incertus_gum::Measurand,
+    y_unit: &'a str,
+}
+
+impl<'a> RowCx<'a> {
+    fn cell(&self, k: Col) -> Option<(usize, &'a Cell)> {
+        let c = self.cols.iter().find(|(_, x)| *x == k).map(|(i, _)| *i)?;
+        self.row.get(c).map(|x| (c, x))
+    }
+}
+
+/// The figures of a row naming an input.
+fn input_row(
+    rc: &RowCx,
+    b: &incertus_gum::BudgetLine,
+    own: bool,
+    lines: &mut Vec<Line>,
+    stated_contributions: &mut Vec<(f64, bool)>,
+) -> Result<(), String> {
+    let (grid, ri, model, report, r, target) =
+        (rc.grid, rc.ri, rc.model, rc.report, rc.r, rc.target);
+    let y_unit = rc.y_unit.to_string();
+    let cell = |k: Col| rc.cell(k);
+    let in_terms_of_intermediates = own;
+    let unit = b.unit.clone().unwrap_or_default();
+    let c_unit = crate::report::sensitivity_unit(r, b);
+    let ci = input_coefficient(model, report, target, b, in_terms_of_intermediates)?;
+    let figures = [
+        (
+            Col::Estimate,
+            format!("estimate of {}", b.input),
+            b.value,
+            unit.clone(),
+        ),
+        (
+            Col::StandardUncertainty,
+            format!("u({})", b.input),
+            b.standard_uncertainty,
+            unit,
+        ),
+        (Col::Sensitivity, format!("c({})", b.input), ci, c_unit),
+        (
+            Col::Contribution,
+            format!("contribution of {} to u({})", b.input, r.name),
+            (ci * b.standard_uncertainty).abs(),
+            y_unit.clone(),
+        ),
+    ];
+    let mut u_slipped = false;
+    for (k, what, computed, unit) in figures {
+        let Some((c, x)) = cell(k) else { continue };
+        if let Some(mut l) = compare_cell(
+            grid,
+            ri,
+            c,
+            x,
+            &what,
+            computed,
+            &unit,
+            k == Col::Contribution,
+        ) {
+            if !l.agrees {
+                l.slip = match k {
+                    Col::StandardUncertainty => {
+                        let s = u_slip(model, &b.input, l.stated.unwrap_or(0.0), computed);
+                        u_slipped = s.is_some();
+                        s
+                    }
+                    Col::Contribution if u_slipped => Some("follows from the u of this row".into()),
+                    _ => ratio_slip(l.stated.unwrap_or(0.0), computed),
+                };
+            }
+            if k == Col::Contribution {
+                stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
+            }
+            lines.push(l);
+        }
+    }
+    if let Some((c, x)) = cell(Col::Dof) {
+        if let Some(l) = compare_dof(grid, ri, c, x, &format!("ν({})", b.input), b.dof) {
+            lines.push(l);
+        }
+    }
+    if let Some((c, x)) = cell(Col::Distribution) {
+        if let Some(l) = compare_distribution(grid, ri, c, x, &b.input, &b.distribution.to_string())
+        {
+            lines.push(l);
+        }
+    }
+
+    Ok(())
+}
+
+/// The figures of a row naming an intermediate quantity `w` (coefficient
+/// `c` of the own formula).
+fn intermediate_row(
+    rc: &RowCx,
+    w: &MeasurandResult,
+    c: f64,
+    lines: &mut Vec<Line>,
+    stated_contributions: &mut Vec<(f64, bool)>,
+) {
+    let (grid, ri, r) = (rc.grid, rc.ri, rc.r);
+    let y_unit = rc.y_unit.to_string();
+    let cell = |k: Col| rc.cell(k);
+    let unit = w.unit.clone().unwrap_or_default();
+    let c_unit = incertus_units::quotient(&y_unit, &unit);
+    let figures = [
+        (
+            Col::Estimate,
+            format!("estimate of {} (intermediate)", w.name),
+            w.value,
+            unit.clone(),
+        ),
+        (
+            Col::StandardUncertainty,
+            format!("u({}) (intermediate)", w.name),
+            w.standard_uncertainty,
+            unit,
+        ),
+        (Col::Sensitivity, format!("c({})", w.name), c, c_unit),
+        (
+            Col::Contribution,
+            format!("contribution of {} to u({})", w.name, r.name),
+            (c * w.standard_uncertainty).abs(),
+            y_unit.clone(),
+        ),
+    ];
+    let mut u_wrong = false;
+    for (k, what, computed, unit) in figures {
+        let Some((ci, x)) = cell(k) else { continue };
+        if let Some(mut l) = compare_cell(
+            grid,
+            ri,
+            ci,
+            x,
+            &what,
+            computed,
+            &unit,
+            k == Col::Contribution,
+        ) {
+            if !l.agrees {
+                l.slip = if k == Col::Contribution && u_wrong {
+                    Some("follows from the u of this row".into())
+                } else {
+                    ratio_slip(l.stated.unwrap_or(0.0), computed)
+                };
+                u_wrong |= k == Col::StandardUncertainty;
+                if k == Col::StandardUncertainty && l.slip.is_none() {
+                    l.slip = Some(format!(
+                        "the intermediate quantity's own uncertainty: check its budget (`incertus eval` gives u({}) = {})",
+                        w.name,
+                        significant(w.standard_uncertainty, 5)
+                    ));
+                }
+            }
+            if k == Col::Contribution {
+                stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
+            }
+            lines.push(l);
+        }
+    }
 }
 
 /// One numeric figure of a cell against the computed one (`absolute`:
