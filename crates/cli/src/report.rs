@@ -79,10 +79,17 @@ fn per_unit(u: &str, si: bool) -> String {
 
 /// The unit of the sensitivity coefficient of `b` in the budget of `r`.
 pub fn sensitivity_unit(r: &MeasurandResult, b: &incertus_gum::BudgetLine) -> String {
-    incertus_units::quotient(
+    let q = incertus_units::quotient(
         r.unit.as_deref().unwrap_or(""),
         b.unit.as_deref().unwrap_or(""),
-    )
+    );
+    // Units that cancel (g per g) leave a coefficient of unit one, written
+    // so that it does not read as a missing unit.
+    if q.is_empty() && (r.unit.is_some() || b.unit.is_some()) {
+        "1".into()
+    } else {
+        q
+    }
 }
 
 /// The budget of a measurand as EA-4/02 (section 6 and its examples) lays it
