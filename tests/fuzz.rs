@@ -116,6 +116,44 @@ fn dictionary(target: &str) -> &'static [&'static str] {
         "csv" => &[
             ",", "\n", "\"", "#", "x", "y", "u", "  ", "\r\n", ",,", "\"a,b\"",
         ],
+        "items" => &[
+            ",",
+            "\n",
+            "\"",
+            "#",
+            "t_ref",
+            "t_ind.observations",
+            "d_res.half_width",
+            ".value",
+            ".distribution",
+            "rectangular",
+            "1e308",
+            "-0",
+            "NaN",
+            " ",
+            "item",
+            "\r\n",
+        ],
+        "budget" => &[
+            ",",
+            "\n",
+            "\"",
+            "Quantity",
+            "Estimate",
+            "Standard uncertainty",
+            "Contribution",
+            "combined standard uncertainty",
+            "coverage factor",
+            "m",
+            "r",
+            "h",
+            "A",
+            "rho",
+            "1e308",
+            "-",
+            "(g)",
+            "\r\n",
+        ],
         _ => &[
             "x = ",
             "y = ",
@@ -390,6 +428,57 @@ fn shell_target(input: &[u8]) -> Result<String, String> {
     }
 }
 
+/// The whole program on a table written to a file of this thread: an
+/// internal error (exit 70) is a finding, any other error an answer.
+fn program_on_file(input: &[u8], ext: &str, args: &[&str]) -> Result<String, String> {
+    let file = std::env::temp_dir().join(format!(
+        "incertus-fuzz-{}-{:?}.{ext}",
+        std::process::id(),
+        std::thread::current().id()
+    ));
+    std::fs::write(&file, input).map_err(|e| e.to_string())?;
+    let mut all: Vec<String> = vec!["incertus".into()];
+    all.extend(args.iter().map(|a| a.replace("{}", file.to_str().unwrap())));
+    let (mut out, mut err) = (Vec::new(), Vec::new());
+    let code = incertus_cli::run_with(&all, &mut out, &mut err);
+    let _ = std::fs::remove_file(&file);
+    let err = String::from_utf8_lossy(&err).replace(file.to_str().unwrap(), "TABLE");
+    assert_ne!(code, 70, "internal error: {err}");
+    if code == 0 {
+        Ok(String::new())
+    } else {
+        Err(err.lines().next().unwrap_or("").to_string())
+    }
+}
+
+fn items_target(input: &[u8]) -> Result<String, String> {
+    program_on_file(
+        input,
+        "csv",
+        &[
+            "eval",
+            "examples/items/thermometers.toml",
+            "--items",
+            "{}",
+            "--format",
+            "csv",
+        ],
+    )
+}
+
+fn budget_target(input: &[u8]) -> Result<String, String> {
+    program_on_file(
+        input,
+        "csv",
+        &[
+            "check",
+            "tests/fixtures/budgets/cylinder.toml",
+            "--budget",
+            "{}",
+        ],
+    )
+}
+
 // ---- driver --------------------------------------------------------------
 
 fn files(dir: &Path, ext: Option<&str>) -> Vec<Vec<u8>> {
@@ -576,6 +665,16 @@ fn fuzz_model_loader() {
 #[test]
 fn fuzz_csv_reader() {
     fuzz("csv", csv_target, Some("csv"));
+}
+
+#[test]
+fn fuzz_items_table() {
+    fuzz("items", items_target, Some("csv"));
+}
+
+#[test]
+fn fuzz_budget_sheet() {
+    fuzz("budget", budget_target, Some("csv"));
 }
 
 #[test]

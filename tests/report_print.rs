@@ -167,7 +167,40 @@ fn nothing_is_wider_than_an_a4_or_letter_page() {
     // Content widths: A4 210 mm and Letter 215.9 mm less the report's
     // margins of 2 × 12 mm, at 96 px per inch.
     let px = |mm: f64| (mm / 25.4 * 96.0).floor() as u32;
-    for dir in reports("print-width") {
+    // The report folders of eval, of a fit on its own and of a table of items.
+    let mut folders = reports("print-width");
+    let extra = scratch("print-width-more");
+    let fit = extra.join("fit");
+    let (code, _, err) = incertus(&[
+        "fit",
+        "examples/models/calibration.csv",
+        "--x",
+        "conc",
+        "--y",
+        "signal",
+        "--x-unit",
+        "mg/L",
+        "--exclude",
+        "10",
+        "--exclude-reason",
+        "cuvette not rinsed",
+        "--report",
+        fit.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    folders.push(fit);
+    let items = extra.join("items");
+    let (code, _, err) = incertus(&[
+        "eval",
+        "examples/items/thermometers.toml",
+        "--items",
+        "examples/items/thermometers.csv",
+        "--report",
+        items.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    folders.push(items);
+    for dir in folders {
         let html = read(&dir.join("report.html"));
         let probe = dir.join("probe.html");
         std::fs::write(&probe, overflow_probe(&html)).unwrap();

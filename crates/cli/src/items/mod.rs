@@ -9,7 +9,8 @@
 //! of that input, others replace only themselves
 //! (`InputDescription::with_keys`). The column `item` (or the one
 //! `--item-column` names) identifies the row; without one, rows are
-//! numbered. Columns whose title begins with `#` are notes and not used.
+//! numbered. Columns whose title begins with `#` are notes and not used;
+//! lines beginning with `#` are comments.
 //!
 //! Every cell is read and every item evaluated before anything is printed
 //! or written; a bad cell, an invalid input or a failed evaluation is an
@@ -234,9 +235,11 @@ pub(crate) fn read_items(
 ) -> Result<Vec<Item>, Failure> {
     let file = incertus_fit::open_regular(table, max_bytes)
         .map_err(|e| Failure::input(format!("{}: {e}", table.display())))?;
+    // Lines beginning with `#` are comments, as in the data files of fits.
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
         .flexible(false)
+        .comment(Some(b'#'))
         .from_reader(file);
     let header = reader
         .headers()
