@@ -1,7 +1,7 @@
 //! `check MODEL --budget FILE`: hand-made budgets checked where they live.
 //!
 //! Fixtures: tests/fixtures/make_budget_sheets.py writes them with openpyxl
-//! (.xlsx) and odfpy (.ods) from PyPI and the csv module, from a budget of
+//! (.xlsx), xlwt (.xls) and odfpy (.ods) from PyPI and the csv module, from a budget of
 //! tests/fixtures/budgets/cylinder.toml computed there with sensitivity
 //! coefficients derived on paper (an outside computation of the same
 //! budget), one correct sheet per format and one sheet per typical slip;
@@ -84,7 +84,7 @@ fn every_typical_slip_is_found_in_its_cell() {
         let first = out.lines().find(|l| l.starts_with("DISAGREES")).unwrap();
         assert!(first.contains(cell), "{slip}: first disagreement {first}");
         // JSON: every line with its cell.
-        let (code, json, _) = check(&file, &["--budget-format", "json"]);
+        let (code, json, _) = check(&file, &["--format", "json"]);
         assert_eq!(code, 1);
         let v: serde_json::Value = serde_json::from_str(&json).unwrap();
         assert!(v["lines"]

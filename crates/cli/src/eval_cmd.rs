@@ -403,6 +403,21 @@ pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
     let report = evaluate(&a.file, &model, a.coverage, false)?;
     let c = check(&model, &report);
+    if a.budget.format == crate::sheet::CheckFormat::Json {
+        let bad = c.items.iter().filter(|i| !i.agrees).count();
+        let mut s = serde_json::to_string_pretty(&c).expect("plain data");
+        s.push('\n');
+        let _ = out.write_all(s.as_bytes());
+        if bad > 0 {
+            return Err(Failure::input(format!(
+                "{bad} stated figure{} of {} disagree{} with the law of propagation",
+                if bad == 1 { "" } else { "s" },
+                a.file.display(),
+                if bad == 1 { "s" } else { "" }
+            )));
+        }
+        return Ok(());
+    }
     let mut text = format!("check of {}\n", a.file.display());
     if c.items.is_empty() {
         text.push_str(

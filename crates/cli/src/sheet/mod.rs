@@ -44,13 +44,17 @@ pub struct BudgetArgs {
     #[arg(long, value_name = "NAME", requires = "budget")]
     pub measurand: Option<String>,
     /// Output: text, or json (every line with its cell)
-    #[arg(
-        long,
-        value_name = "text|json",
-        default_value = "text",
-        requires = "budget"
-    )]
-    pub budget_format: String,
+    #[arg(long, value_enum, default_value_t = CheckFormat::Text)]
+    pub format: CheckFormat,
+}
+
+/// Output formats of `check`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum CheckFormat {
+    /// Aligned text, one line per figure
+    Text,
+    /// Every figure with its cell (or model-file line) and verdict
+    Json,
 }
 
 /// The columns of a budget table.
@@ -247,7 +251,7 @@ pub(crate) fn run(
         a.measurand.as_deref(),
     )
     .map_err(unreadable)?;
-    let text = if a.budget_format == "json" {
+    let text = if a.format == CheckFormat::Json {
         let mut s = serde_json::to_string_pretty(&checked.json(&grid, header_row, &cols))
             .expect("plain data");
         s.push('\n');
