@@ -161,6 +161,25 @@ pub(crate) fn evaluate(
     })
 }
 
+/// The files an evaluation reads: the model, a table of items, and the
+/// data files of its fits (an inline fit has none).
+fn files_read(
+    file: &std::path::Path,
+    table: Option<&std::path::Path>,
+    model: &Model,
+) -> Vec<PathBuf> {
+    let mut files = vec![file.to_path_buf()];
+    files.extend(table.map(std::path::Path::to_path_buf));
+    files.extend(
+        model
+            .fits
+            .iter()
+            .filter(|f| f.data != "inline")
+            .map(|f| PathBuf::from(&f.data)),
+    );
+    files
+}
+
 /// `eval --items`: one evaluation per item of a table.
 fn run_items(
     a: &EvalArgs,
@@ -181,14 +200,7 @@ fn run_items(
         }
     };
     let model = load(&a.file)?;
-    let mut inputs = vec![a.file.clone(), table.to_path_buf()];
-    inputs.extend(
-        model
-            .fits
-            .iter()
-            .filter(|f| f.data != "inline")
-            .map(|f| std::path::PathBuf::from(&f.data)),
-    );
+    let inputs = files_read(&a.file, Some(table), &model);
     if let Some(dir) = &a.report {
         crate::files::check_report_folder(dir, a.force, &inputs)?;
     }
@@ -249,16 +261,7 @@ pub fn run_eval(a: &EvalArgs, out: &mut dyn Write, err: &mut dyn Write) -> Resul
     }
     let model = load(&a.file)?;
     let settings = mc_settings(a)?;
-    // The files this evaluation reads: the model and its fits' data.
-    let mut inputs = vec![a.file.clone()];
-    // (an inline fit has no file)
-    inputs.extend(
-        model
-            .fits
-            .iter()
-            .filter(|f| f.data != "inline")
-            .map(|f| std::path::PathBuf::from(&f.data)),
-    );
+    let inputs = files_read(&a.file, None, &model);
     if let Some(dir) = &a.report {
         // Before any work: the folder must be free, or hold an earlier
         // report and none of these files.

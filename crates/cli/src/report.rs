@@ -620,6 +620,21 @@ pub fn with_unit(quantity: &str, unit: Option<&str>) -> String {
     }
 }
 
+/// A fit of a model as text, its columns titled with their units.
+fn named_fit_text(f: &incertus_gum::model::NamedFit) -> String {
+    fit_text(
+        &format!(
+            "least-squares fit `{}`: {} against {} from {}",
+            f.name, f.y, f.x, f.data
+        ),
+        &f.result,
+        [
+            &with_unit(&f.x, f.x_unit.as_deref()),
+            &with_unit(&f.y, f.y_unit.as_deref()),
+        ],
+    )
+}
+
 /// A fit as text; `axes` are the titles of the x and y columns.
 pub fn fit_text(title: &str, f: &incertus_fit::FitResult, axes: [&str; 2]) -> String {
     let mut out = format!("{title}\n");
@@ -896,17 +911,7 @@ pub fn text(report: &Report, style: Style, mc: Option<&McReport>) -> String {
         out.push_str("\n\n");
     }
     for f in &report.fits {
-        out.push_str(&fit_text(
-            &format!(
-                "least-squares fit `{}`: {} against {} from {}",
-                f.name, f.y, f.x, f.data
-            ),
-            &f.result,
-            [
-                &with_unit(&f.x, f.x_unit.as_deref()),
-                &with_unit(&f.y, f.y_unit.as_deref()),
-            ],
-        ));
+        out.push_str(&named_fit_text(f));
         out.push('\n');
     }
     for r in &report.results {
@@ -1030,17 +1035,7 @@ pub fn markdown(report: &Report, style: Style, mc: Option<&McReport>) -> String 
         out.push_str(&format!(
             "## Fit {}\n\n```text\n{}```\n\n",
             md_escape(&f.name),
-            fit_text(
-                &format!(
-                    "least-squares fit `{}`: {} against {} from {}",
-                    f.name, f.y, f.x, f.data
-                ),
-                &f.result,
-                [
-                    &with_unit(&f.x, f.x_unit.as_deref()),
-                    &with_unit(&f.y, f.y_unit.as_deref()),
-                ],
-            )
+            named_fit_text(f)
         ));
     }
     for r in &report.results {

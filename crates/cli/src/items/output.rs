@@ -135,32 +135,6 @@ pub(crate) fn summary_lines(s: &Summary) -> Vec<String> {
     lines
 }
 
-fn aligned(t: &Table) -> String {
-    let all = t.all();
-    let cols = t.header.len();
-    let width: Vec<usize> = (0..cols)
-        .map(|c| all.iter().map(|r| r[c].chars().count()).max().unwrap_or(0))
-        .collect();
-    let mut out = String::new();
-    for (i, r) in all.iter().enumerate() {
-        let mut line = String::new();
-        for (c, cell) in r.iter().enumerate() {
-            if c > 0 {
-                line.push_str("  ");
-            }
-            line.push_str(cell);
-            line.push_str(&" ".repeat(width[c] - cell.chars().count()));
-        }
-        out.push_str(line.trim_end());
-        out.push('\n');
-        if i == 0 {
-            out.push_str(&"-".repeat(width.iter().sum::<usize>() + 2 * (cols - 1)));
-            out.push('\n');
-        }
-    }
-    out
-}
-
 /// The CSV rows: one per item and measurand, full precision.
 pub(crate) fn csv(items: &[Evaluated]) -> String {
     use crate::tables::{csv_field, table_number};
@@ -241,7 +215,9 @@ pub(crate) fn render(
         Format::Csv => csv(items),
         Format::Text => {
             let mut s = format!("{title}: {} items\n\n", items.len());
-            s.push_str(&aligned(&items_table(items, style, false)));
+            s.push_str(&crate::report::aligned_table(&items_table(
+                items, style, false,
+            )));
             s.push('\n');
             for l in summary_lines(summary) {
                 s.push_str(&l);

@@ -411,6 +411,63 @@ impl<'a> RowCx<'a> {
     }
 }
 
+/// One line's four figures (estimate, u, c, contribution) with their
+/// units, checked where the row states them; `u_slip` names the slip of a
+/// disagreeing u (the contribution then follows from it).
+#[allow(clippy::too_many_arguments)]
+fn line_figures(
+    rc: &RowCx,
+    name: &str,
+    (value, u, unit): (f64, f64, &str),
+    (c, c_unit): (f64, &str),
+    intermediate: bool,
+    u_slip: &dyn Fn(f64, f64) -> Option<String>,
+    lines: &mut Vec<Line>,
+    stated_contributions: &mut Vec<(f64, bool)>,
+) {
+    let tag = if intermediate { " (intermediate)" } else { "" };
+    let figures = [
+        (
+            Col::Estimate,
+            format!("estimate of {name}{tag}"),
+            value,
+            unit,
+        ),
+        (Col::StandardUncertainty, format!("u({name}){tag}"), u, unit),
+        (Col::Sensitivity, format!("c({name})"), c, c_unit),
+        (
+            Col::Contribution,
+            format!("contribution of {name} to u({})", rc.r.name),
+            (c * u).abs(),
+            rc.y_unit,
+        ),
+    ];
+    let mut u_wrong = false;
+    for (k, what, computed, unit) in figures {
+        let Some((col, x)) = rc.cell(k) else { continue };
+        let contribution = k == Col::Contribution;
+        let Some(mut l) = compare_cell(rc.grid, rc.ri, col, x, &what, computed, unit, contribution)
+        else {
+            continue;
+        };
+        if !l.agrees {
+            let stated = l.stated.unwrap_or(0.0);
+            l.slip = match k {
+                Col::StandardUncertainty => {
+                    u_wrong = true;
+                    u_slip(stated, computed)
+                }
+                Col::Contribution if u_wrong => Some("follows from the u of this row".into()),
+                _ => ratio_slip(stated, computed),
+            };
+        }
+        if contribution {
+            stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
+        }
+        lines.push(l);
+    }
+}
+
 /// The figures of a row naming an input.
 fn input_row(
     rc: &RowCx,
@@ -419,82 +476,37 @@ fn input_row(
     lines: &mut Vec<Line>,
     stated_contributions: &mut Vec<(f64, bool)>,
 ) -> Result<(), String> {
-    let (grid, ri, model, report, r, target) =
-        (rc.grid, rc.ri, rc.model, rc.report, rc.r, rc.target);
-    let y_unit = rc.y_unit.to_string();
-    let cell = |k: Col| rc.cell(k);
-    let in_terms_of_intermediates = own;
     let unit = b.unit.clone().unwrap_or_default();
-    let c_unit = crate::report::sensitivity_unit(r, b);
-    let ci = input_coefficient(model, report, target, b, in_terms_of_intermediates)?;
-    let figures = [
-        (
-            Col::Estimate,
-            format!("estimate of {}", b.input),
-            b.value,
-            unit.clone(),
-        ),
-        (
-            Col::StandardUncertainty,
-            format!("u({})", b.input),
-            b.standard_uncertainty,
-            unit,
-        ),
-        (Col::Sensitivity, format!("c({})", b.input), ci, c_unit),
-        (
-            Col::Contribution,
-            format!("contribution of {} to u({})", b.input, r.name),
-            (ci * b.standard_uncertainty).abs(),
-            y_unit.clone(),
-        ),
-    ];
-    let mut u_slipped = false;
-    for (k, what, computed, unit) in figures {
-        let Some((c, x)) = cell(k) else { continue };
-        if let Some(mut l) = compare_cell(
-            grid,
-            ri,
-            c,
-            x,
-            &what,
-            computed,
-            &unit,
-            k == Col::Contribution,
-        ) {
-            if !l.agrees {
-                l.slip = match k {
-                    Col::StandardUncertainty => {
-                        let s = u_slip(model, &b.input, l.stated.unwrap_or(0.0), computed);
-                        u_slipped = s.is_some();
-                        s
-                    }
-                    Col::Contribution if u_slipped => Some("follows from the u of this row".into()),
-                    _ => ratio_slip(l.stated.unwrap_or(0.0), computed),
-                };
-            }
-            if k == Col::Contribution {
-                stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
-            }
-            lines.push(l);
-        }
-    }
-    if let Some((c, x)) = cell(Col::Dof) {
+    let c_unit = crate::report::sensitivity_unit(rc.r, b);
+    let c = input_coefficient(rc.model, rc.report, rc.target, b, own)?;
+    let slip = |stated: f64, computed: f64| u_slip(rc.model, &b.input, stated, computed);
+    line_figures(
+        rc,
+        &b.input,
+        (b.value, b.standard_uncertainty, &unit),
+        (c, &c_unit),
+        false,
+        &slip,
+        lines,
+        stated_contributions,
+    );
+    let (grid, ri) = (rc.grid, rc.ri);
+    if let Some((c, x)) = rc.cell(Col::Dof) {
         if let Some(l) = compare_dof(grid, ri, c, x, &format!("ν({})", b.input), b.dof) {
             lines.push(l);
         }
     }
-    if let Some((c, x)) = cell(Col::Distribution) {
-        if let Some(l) = compare_distribution(grid, ri, c, x, &b.input, &b.distribution.to_string())
-        {
+    if let Some((c, x)) = rc.cell(Col::Distribution) {
+        let d = b.distribution.to_string();
+        if let Some(l) = compare_distribution(grid, ri, c, x, &b.input, &d) {
             lines.push(l);
         }
     }
-
     Ok(())
 }
 
 /// The figures of a row naming an intermediate quantity `w` (coefficient
-/// `c` of the own formula).
+/// `c` of the own formula); a wrong u of it is its own budget's slip.
 fn intermediate_row(
     rc: &RowCx,
     w: &MeasurandResult,
@@ -502,66 +514,27 @@ fn intermediate_row(
     lines: &mut Vec<Line>,
     stated_contributions: &mut Vec<(f64, bool)>,
 ) {
-    let (grid, ri, r) = (rc.grid, rc.ri, rc.r);
-    let y_unit = rc.y_unit.to_string();
-    let cell = |k: Col| rc.cell(k);
     let unit = w.unit.clone().unwrap_or_default();
-    let c_unit = incertus_units::quotient(&y_unit, &unit);
-    let figures = [
-        (
-            Col::Estimate,
-            format!("estimate of {} (intermediate)", w.name),
-            w.value,
-            unit.clone(),
-        ),
-        (
-            Col::StandardUncertainty,
-            format!("u({}) (intermediate)", w.name),
-            w.standard_uncertainty,
-            unit,
-        ),
-        (Col::Sensitivity, format!("c({})", w.name), c, c_unit),
-        (
-            Col::Contribution,
-            format!("contribution of {} to u({})", w.name, r.name),
-            (c * w.standard_uncertainty).abs(),
-            y_unit.clone(),
-        ),
-    ];
-    let mut u_wrong = false;
-    for (k, what, computed, unit) in figures {
-        let Some((ci, x)) = cell(k) else { continue };
-        if let Some(mut l) = compare_cell(
-            grid,
-            ri,
-            ci,
-            x,
-            &what,
-            computed,
-            &unit,
-            k == Col::Contribution,
-        ) {
-            if !l.agrees {
-                l.slip = if k == Col::Contribution && u_wrong {
-                    Some("follows from the u of this row".into())
-                } else {
-                    ratio_slip(l.stated.unwrap_or(0.0), computed)
-                };
-                u_wrong |= k == Col::StandardUncertainty;
-                if k == Col::StandardUncertainty && l.slip.is_none() {
-                    l.slip = Some(format!(
-                        "the intermediate quantity's own uncertainty: check its budget (`incertus eval` gives u({}) = {})",
-                        w.name,
-                        significant(w.standard_uncertainty, 5)
-                    ));
-                }
-            }
-            if k == Col::Contribution {
-                stated_contributions.push((l.stated.unwrap_or(0.0), l.agrees));
-            }
-            lines.push(l);
-        }
-    }
+    let c_unit = incertus_units::quotient(rc.y_unit, &unit);
+    let slip = |stated: f64, computed: f64| {
+        ratio_slip(stated, computed).or_else(|| {
+            Some(format!(
+                "the intermediate quantity's own uncertainty: check its budget (`incertus eval` gives u({}) = {})",
+                w.name,
+                significant(w.standard_uncertainty, 5)
+            ))
+        })
+    };
+    line_figures(
+        rc,
+        &w.name,
+        (w.value, w.standard_uncertainty, &unit),
+        (c, &c_unit),
+        true,
+        &slip,
+        lines,
+        stated_contributions,
+    );
 }
 
 /// One numeric figure of a cell against the computed one (`absolute`:
