@@ -406,20 +406,23 @@ pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
     let model = load(&a.file)?;
     let report = evaluate(&a.file, &model, a.coverage, false)?;
     let c = check(&model, &report);
+    let bad = c.items.iter().filter(|i| !i.agrees).count();
+    let verdict = || -> Result<(), Failure> {
+        if bad == 0 {
+            return Ok(());
+        }
+        Err(Failure::input(format!(
+            "{bad} stated figure{} of {} disagree{} with the law of propagation",
+            if bad == 1 { "" } else { "s" },
+            a.file.display(),
+            if bad == 1 { "s" } else { "" }
+        )))
+    };
     if a.budget.format == crate::sheet::CheckFormat::Json {
-        let bad = c.items.iter().filter(|i| !i.agrees).count();
         let mut s = serde_json::to_string_pretty(&c).expect("plain data");
         s.push('\n');
         let _ = out.write_all(s.as_bytes());
-        if bad > 0 {
-            return Err(Failure::input(format!(
-                "{bad} stated figure{} of {} disagree{} with the law of propagation",
-                if bad == 1 { "" } else { "s" },
-                a.file.display(),
-                if bad == 1 { "s" } else { "" }
-            )));
-        }
-        return Ok(());
+        return verdict();
     }
     let mut text = format!("check of {}\n", a.file.display());
     if c.items.is_empty() {
@@ -430,12 +433,8 @@ pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
         let _ = out.write_all(text.as_bytes());
         return Ok(());
     }
-    let mut bad = 0;
     for i in &c.items {
         let verdict = if i.agrees { "agrees    " } else { "DISAGREES " };
-        if !i.agrees {
-            bad += 1;
-        }
         let rel = i
             .relative_difference
             .map(|r| format!(", relative difference {:+.2e}", r))
@@ -458,13 +457,5 @@ pub fn run_check(a: &CheckArgs, out: &mut dyn Write) -> Result<(), Failure> {
         if bad == 1 { "s" } else { "" }
     ));
     let _ = out.write_all(text.as_bytes());
-    if bad > 0 {
-        return Err(Failure::input(format!(
-            "{bad} stated figure{} of {} disagree{} with the law of propagation",
-            if bad == 1 { "" } else { "s" },
-            a.file.display(),
-            if bad == 1 { "s" } else { "" }
-        )));
-    }
-    Ok(())
+    verdict()
 }
