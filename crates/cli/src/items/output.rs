@@ -108,7 +108,11 @@ pub(crate) fn summary_lines(s: &Summary) -> Vec<String> {
     let mut lines = Vec::new();
     for m in &s.measurands {
         let unit = unit_of(&m.unit);
-        lines.push(format!("summary of {} over {} items", m.measurand, m.items));
+        let plural = if m.items == 1 { "" } else { "s" };
+        lines.push(format!(
+            "summary of {} over {} item{plural}",
+            m.measurand, m.items
+        ));
         if let (Some(a), Some(r), Some(x)) = (
             m.accepted,
             m.rejected,
@@ -214,7 +218,8 @@ pub(crate) fn render(
         }
         Format::Csv => csv(items),
         Format::Text => {
-            let mut s = format!("{title}: {} items\n\n", items.len());
+            let n = items.len();
+            let mut s = format!("{title}: {n} item{}\n\n", if n == 1 { "" } else { "s" });
             s.push_str(&crate::report::aligned_table(&items_table(
                 items, style, false,
             )));
