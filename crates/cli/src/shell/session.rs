@@ -175,6 +175,19 @@ impl Session {
     /// observed together, and the fits of fitted inputs; in the session's
     /// order.
     pub fn part(&self, measurands: &[String], inputs: &[&str]) -> ModelDescription {
+        self.part_defining(measurands, inputs, None)
+    }
+
+    /// [`Session::part`] for a statement that defines `defined`: a new name
+    /// being defined is not a slip, so no "did you mean" is looked for it
+    /// (that search runs over the whole session: once per new input it made
+    /// a long piped session quadratic).
+    fn part_defining(
+        &self,
+        measurands: &[String],
+        inputs: &[&str],
+        defined: Option<&str>,
+    ) -> ModelDescription {
         let mut ms: HashSet<&str> = HashSet::new();
         let mut names: HashSet<String> = inputs.iter().map(|s| s.to_string()).collect();
         let mut stack: Vec<&str> = measurands.iter().map(String::as_str).collect();
@@ -196,7 +209,7 @@ impl Session {
                 break;
             }
             looked_for_slips = true;
-            stack = self.likely_meant(&mut names);
+            stack = self.likely_meant(&mut names, defined);
         }
         self.close_over_correlations(&mut names);
         let mut part = ModelDescription {
@@ -245,9 +258,10 @@ impl Session {
     /// "did you mean" from the whole session, not only from the part: an
     /// input is added to `names`, a measurand returned to be taken in with
     /// what it uses.
-    fn likely_meant(&self, names: &mut HashSet<String>) -> Vec<&str> {
+    fn likely_meant(&self, names: &mut HashSet<String>, defined: Option<&str>) -> Vec<&str> {
         let unknown: Vec<String> = names
             .iter()
+            .filter(|n| Some(n.as_str()) != defined)
             .filter(|n| !self.input_at.contains_key(*n) && !self.measurand_at.contains_key(*n))
             .cloned()
             .collect();
@@ -293,7 +307,7 @@ impl Session {
     /// The part an input definition touches, with the definition in it.
     pub fn part_with_input(&self, input: &InputDescription) -> ModelDescription {
         let name = input.name.as_str();
-        let mut part = self.part(&self.dependents(&[name]), &[name]);
+        let mut part = self.part_defining(&self.dependents(&[name]), &[name], Some(name));
         part.measurands.retain(|m| m.name != name);
         match part.inputs.iter_mut().find(|i| i.name == name) {
             Some(slot) => *slot = input.clone(),
