@@ -112,16 +112,40 @@ rule = "guarded acceptance"
 guard_multiple = 1.0
 "#;
 
+/// Many measurands (a wide correlation matrix, printed in blocks of
+/// columns) and a polynomial fit of degree 5 (wide covariance matrices),
+/// invented data.
+fn many() -> String {
+    let mut s = String::from(
+        "title = \"Many measurands\"\n[fits.p]\nx = [0, 1, 2, 3, 4, 5, 6, 7, 8, 9]\n\
+         y = [1.02, 2.71, 7.43, 20.1, 54.5, 148.6, 403.1, 1096.9, 2981.2, 8103.5]\ndegree = 5\n\
+         [inputs.c0]\nfit = \"p\"\nparameter = \"c0\"\n[inputs.c5]\nfit = \"p\"\nparameter = \"c5\"\n\
+         [inputs.q]\nvalue = 3.0\nstandard_uncertainty = 0.01\n",
+    );
+    for i in 0..24 {
+        s.push_str(&format!(
+            "[[measurands]]\nname = \"m{i}\"\nformula = \"c0 + c5*q^{} + {i}*q\"\n",
+            i % 4 + 1
+        ));
+    }
+    s
+}
+
 /// The report folders the tests print: the demonstration record (a fit
 /// from a data file, Type A, Type B with sources, a correlation, Monte
-/// Carlo, a specification) and the layout stress model.
+/// Carlo, a specification), the layout stress model and many measurands.
 fn reports(name: &str) -> Vec<PathBuf> {
     let dir = scratch(name);
     let wide = write(&dir, "wide.toml", WIDE);
+    let many = write(&dir, "many.toml", &many());
     let mut out = Vec::new();
-    for (i, model) in ["examples/models/sample_record.toml", wide.to_str().unwrap()]
-        .iter()
-        .enumerate()
+    for (i, model) in [
+        "examples/models/sample_record.toml",
+        wide.to_str().unwrap(),
+        many.to_str().unwrap(),
+    ]
+    .iter()
+    .enumerate()
     {
         let rep = dir.join(format!("report{i}"));
         let (code, _, err) = incertus(&[

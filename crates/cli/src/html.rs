@@ -707,32 +707,65 @@ fn monte_carlo_section(report: &Report, mc: &McReport) -> String {
     s
 }
 
+/// Columns of a matrix in one printed table; a larger matrix is printed
+/// in blocks of this many columns, each with the row names, so that it fits
+/// the width of an A4 page.
+const MATRIX_COLUMNS: usize = 7;
+
+/// A square matrix with named rows and columns as one table or, when it is
+/// wide, as blocks of columns.
+pub(crate) fn matrix_tables(
+    caption: &str,
+    names: &[String],
+    m: &[Vec<f64>],
+    cell: &dyn Fn(f64) -> String,
+) -> String {
+    let mut s = String::new();
+    let blocks = names.len().div_ceil(MATRIX_COLUMNS).max(1);
+    for b in 0..blocks {
+        let cols: Vec<usize> =
+            (b * MATRIX_COLUMNS..((b + 1) * MATRIX_COLUMNS).min(names.len())).collect();
+        let t = Table {
+            header: std::iter::once(String::new())
+                .chain(cols.iter().map(|&c| names[c].clone()))
+                .collect(),
+            rows: m
+                .iter()
+                .enumerate()
+                .map(|(i, row)| {
+                    std::iter::once(names[i].clone())
+                        .chain(
+                            cols.iter()
+                                .map(|&c| row.get(c).map_or(String::new(), |v| cell(*v))),
+                        )
+                        .collect()
+                })
+                .collect(),
+        };
+        let numeric: Vec<usize> = (1..=cols.len()).collect();
+        let title = if blocks > 1 {
+            format!(
+                "{caption} (columns {} to {} of {})",
+                cols[0] + 1,
+                cols[cols.len() - 1] + 1,
+                names.len()
+            )
+        } else {
+            caption.to_string()
+        };
+        s.push_str(&table(&title, &t, &numeric, "matrix"));
+    }
+    s
+}
+
 fn measurand_correlation(report: &Report) -> String {
-    let names = &report.correlation_matrix.names;
-    let t = Table {
-        header: std::iter::once(String::new())
-            .chain(names.iter().cloned())
-            .collect(),
-        rows: report
-            .correlation_matrix
-            .matrix
-            .iter()
-            .enumerate()
-            .map(|(i, row)| {
-                std::iter::once(names[i].clone())
-                    .chain(row.iter().map(|v| format!("{v:.4}")))
-                    .collect()
-            })
-            .collect(),
-    };
-    let numeric: Vec<usize> = (1..=names.len()).collect();
     format!(
         "<h2 id=\"measurand-correlation\">Correlation of the measurands</h2>\n{}",
-        table(
+        matrix_tables(
             "First-order correlation matrix (JCGM 102:2011)",
-            &t,
-            &numeric,
-            "matrix"
+            &report.correlation_matrix.names,
+            &report.correlation_matrix.matrix,
+            &|v| format!("{v:.4}"),
         )
     )
 }

@@ -82,38 +82,18 @@ fn one_fit(f: &NamedFit) -> String {
     ));
     if r.parameters.len() > 1 {
         let names: Vec<String> = r.parameters.iter().map(|p| p.name.clone()).collect();
-        for (what, m, digits) in [
-            ("Covariance matrix", &r.covariance, 6usize),
-            ("Correlation matrix", &r.correlation, 4),
-        ] {
-            let t = Table {
-                header: std::iter::once(String::new())
-                    .chain(names.iter().cloned())
-                    .collect(),
-                rows: m
-                    .iter()
-                    .enumerate()
-                    .map(|(i, row)| {
-                        std::iter::once(names[i].clone())
-                            .chain(row.iter().map(|v| {
-                                if digits == 4 {
-                                    format!("{v:.4}")
-                                } else {
-                                    significant(*v, digits)
-                                }
-                            }))
-                            .collect()
-                    })
-                    .collect(),
-            };
-            let numeric: Vec<usize> = (1..=names.len()).collect();
-            s.push_str(&crate::html::table(
-                &format!("{what} of the parameters of {}", f.name),
-                &t,
-                &numeric,
-                "matrix",
-            ));
-        }
+        s.push_str(&crate::html::matrix_tables(
+            &format!("Covariance matrix of the parameters of {}", f.name),
+            &names,
+            &r.covariance,
+            &|v| significant(v, 6),
+        ));
+        s.push_str(&crate::html::matrix_tables(
+            &format!("Correlation matrix of the parameters of {}", f.name),
+            &names,
+            &r.correlation,
+            &|v| format!("{v:.4}"),
+        ));
     }
     s.push_str(&diagnostics(f));
     s.push_str(&data_table(f));
