@@ -423,3 +423,62 @@ fn the_thermometer_example_in_every_format() {
     assert_eq!(distinct.len(), seeds.len(), "each item its own stream");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// Keys that describe an uncertainty another way than the model (an
+/// expanded uncertainty with k where the model states u; a standard
+/// uncertainty where it states limits) replace the model's description and
+/// keep its estimate; an estimate column for an input the model gives as a
+/// series is refused with the column to use.
+#[test]
+fn other_descriptions_of_an_uncertainty_keep_the_estimate() {
+    let dir = scratch("items-other");
+    let model = write(&dir, "m.toml", &model_text(BASE_X, BASE_H, BASE_K, BASE_W));
+    let table = write(
+        &dir,
+        "t.csv",
+        "item,x.expanded_uncertainty,x.coverage_factor,h.standard_uncertainty\nA,0.2,2,0.03\n",
+    );
+    let (code, out, err) = incertus(&[
+        "eval",
+        model.to_str().unwrap(),
+        "--items",
+        table.to_str().unwrap(),
+        "--format",
+        "json",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let own = write(
+        &dir,
+        "own.toml",
+        &model_text(
+            "value = 10.0\nexpanded_uncertainty = 0.2\ncoverage_factor = 2",
+            "value = 12.0\nstandard_uncertainty = 0.03",
+            BASE_K,
+            BASE_W,
+        ),
+    );
+    let (code, one, err) = incertus(&["eval", own.to_str().unwrap(), "--format", "json"]);
+    assert_eq!(code, 0, "{err}");
+    let e: serde_json::Value = serde_json::from_str(&one).unwrap();
+    assert_eq!(v["items"][0]["results"], e["results"]);
+    // A series in the model: its estimate is their mean, not a column.
+    let series = write(
+        &dir,
+        "s.toml",
+        &model_text("observations = [10.0, 10.1, 9.9]", BASE_H, BASE_K, BASE_W),
+    );
+    let table = write(&dir, "t2.csv", "item,x\nA,10.2\n");
+    let (code, _, err) = incertus(&[
+        "eval",
+        series.to_str().unwrap(),
+        "--items",
+        table.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("t2.csv:2: item A, column `x`") && err.contains("x.observations"),
+        "{err}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

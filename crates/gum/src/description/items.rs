@@ -84,8 +84,11 @@ impl InputDescription {
     /// with its standard uncertainty; a value with a half-width and a
     /// distribution; ...) replace the evaluation the model gives; keys that
     /// do not (the estimate alone, a half-width alone) replace only
-    /// themselves in it. The unit, description and source stay. An error
-    /// names the key at fault and what is wrong.
+    /// themselves in it; uncertainty keys that describe the uncertainty
+    /// another way than the model (an expanded uncertainty with its k for a
+    /// stated u) replace the model's description of it and keep its
+    /// estimate. The unit, description and source stay. An error names the
+    /// key at fault and what is wrong.
     pub fn with_keys(
         &self,
         keys: &[(String, KeyValue)],
@@ -136,11 +139,40 @@ impl InputDescription {
                 ),
             ));
         }
-        let mut all = InputKeys::from(self);
+        if !defines && matches!(self.evaluation, InputEvaluation::Observations { .. }) {
+            return Err((
+                keys[0].0.clone(),
+                format!(
+                    "`{}` is a series of observations in the model, so its estimate is their mean; \
+                     give the item's series in a column `{}.observations`",
+                    self.name, self.name
+                ),
+            ));
+        }
+        let base = InputKeys::from(self);
+        let mut all = base.clone();
         for (key, v) in keys {
             set_key(&mut all, key, v).map_err(|m| (key.clone(), m))?;
         }
-        let evaluation = all.evaluation(&self.name, &cx).map_err(problem)?;
+        let evaluation = match all.evaluation(&self.name, &cx) {
+            Ok(e) => e,
+            // The row describes the uncertainty another way than the model
+            // (an expanded uncertainty for a standard one, limits for a
+            // series): its keys with the model's estimate.
+            Err(first) if defines => {
+                let mut with_value = InputKeys {
+                    value: base.value,
+                    ..InputKeys::default()
+                };
+                for (key, v) in keys {
+                    set_key(&mut with_value, key, v).map_err(|m| (key.clone(), m))?;
+                }
+                with_value
+                    .evaluation(&self.name, &cx)
+                    .map_err(|_| problem(first))?
+            }
+            Err(p) => return Err(problem(p)),
+        };
         Ok(InputDescription {
             evaluation,
             ..self.clone()
