@@ -105,6 +105,8 @@ fn the_published_ea402_s2_budget_passes() {
     ]);
     assert_eq!(code, 0, "{out}{err}");
     assert!(out.contains("contribution of m_S to u(m_X)"), "{out}");
+    // Its uncertainties in mg (the column titles say so), the model in g.
+    assert!(out.contains("stated in mg, compared in g"), "{out}");
 }
 
 #[test]

@@ -69,7 +69,7 @@ impl Checked {
         );
         for l in &self.lines {
             let verdict = if l.agrees { "agrees    " } else { "DISAGREES " };
-            let unit = if l.unit.is_empty() {
+            let unit = if l.unit.is_empty() || l.unit == "1" {
                 String::new()
             } else {
                 format!(" {}", l.unit)
@@ -564,13 +564,32 @@ fn compare_cell(
             note: Some("a formula without a stored value: open the file in its program, let it calculate and save it".into()),
         });
     }
-    let stated = x.number?;
+    let given = x.number?;
+    // A column title with a unit of the same dimension as the figure's
+    // (`Contribution (mg)` where the model shows g): the stated figure and
+    // its rounding are converted to the model's unit.
+    let column_unit = grid.column_units.get(c).and_then(Option::as_ref);
+    let (scale, note) = match (column_unit, incertus_units::parse(unit).ok()) {
+        (Some(cu), Some(fu))
+            if !unit.trim().is_empty()
+                && cu.dimension == fu.dimension
+                && cu.offset == 0.0
+                && fu.offset == 0.0
+                && cu.factor != fu.factor =>
+        {
+            let note = format!("stated in {}, compared in {unit}", cu.text.trim());
+            (cu.factor / fu.factor, Some(note))
+        }
+        _ => (1.0, None),
+    };
+    let stated = given * scale;
     let (s, cmp) = if absolute {
         (stated.abs(), computed.abs())
     } else {
         (stated, computed)
     };
-    let ok = agrees(s, x.digits, cmp);
+    let tolerance = half_unit(given, x.digits) * scale;
+    let ok = (s - cmp).abs() <= tolerance * (1.0 + 1e-9) + 1e-12 * cmp.abs();
     Some(Line {
         cell: name,
         what: what.into(),
@@ -580,7 +599,7 @@ fn compare_cell(
         agrees: ok,
         relative_difference: (cmp != 0.0).then(|| (s - cmp) / cmp),
         slip: None,
-        note: None,
+        note,
     })
 }
 

@@ -30,6 +30,9 @@ pub(crate) struct Grid {
     /// The first row's and column's 0-based position in the sheet.
     pub origin: (usize, usize),
     pub rows: Vec<Vec<Cell>>,
+    /// The unit a column's title states (`Contribution (mg)`), by column,
+    /// once the header is found.
+    pub column_units: Vec<Option<incertus_units::Unit>>,
 }
 
 /// Column letters of a 0-based column (`A`, `Z`, `AA`).
@@ -194,6 +197,7 @@ pub(crate) fn read(file: &Path, sheet: Option<&str>, max_bytes: u64) -> Result<G
         }),
         origin: (r0, c0),
         rows,
+        column_units: Vec::new(),
     })
 }
 
@@ -214,5 +218,6 @@ fn read_csv(file: &Path, max_bytes: u64) -> Result<Grid, String> {
         sheet: None,
         origin: (0, 0),
         rows,
+        column_units: Vec::new(),
     })
 }

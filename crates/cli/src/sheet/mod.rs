@@ -197,6 +197,23 @@ pub(crate) fn find_header(
     None
 }
 
+/// The unit a column title states in parentheses or brackets at its end
+/// (`Contribution (mg)`, `Estimate [g]`), when it is a unit.
+fn title_unit(t: &str) -> Option<incertus_units::Unit> {
+    let t = t.trim();
+    let (open, close) = match t.chars().last()? {
+        ')' => ('(', ')'),
+        ']' => ('[', ']'),
+        _ => return None,
+    };
+    let start = t.rfind(open)?;
+    let inner = t[start + 1..t.len() - close.len_utf8()].trim();
+    if inner.is_empty() {
+        return None;
+    }
+    incertus_units::parse(inner).ok()
+}
+
 /// `--columns "Title=column,..."`.
 fn column_map(spec: &str) -> Result<Vec<(String, Col)>, String> {
     let mut out = Vec::new();
@@ -242,6 +259,11 @@ pub(crate) fn run(
             grid.name
         )));
     };
+    let mut grid = grid;
+    grid.column_units = grid.rows[header_row]
+        .iter()
+        .map(|c| c.text.as_deref().and_then(title_unit))
+        .collect();
     let checked = compare::check(
         &grid,
         header_row,
