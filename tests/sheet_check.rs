@@ -192,3 +192,36 @@ fn intermediate_quantities_and_their_correlations() {
     assert!(err.contains("no measurand `B`"), "{err}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// A summary label in the quantity column is a summary row even when a
+/// word of it names an input (`coverage factor k` with an input `k`); the
+/// input's own row, named exactly, is a budget line.
+#[test]
+fn labels_and_inputs_with_short_names() {
+    let dir = scratch("sheet-labels");
+    let model = write(
+        &dir,
+        "m.toml",
+        "[inputs.k]\nvalue = 2.0\nstandard_uncertainty = 0.01\n\
+         [inputs.x]\nvalue = 3.0\nstandard_uncertainty = 0.02\n\
+         [[measurands]]\nname = \"y\"\nformula = \"k*x\"\n",
+    );
+    // u(y) = sqrt((3·0.01)² + (2·0.02)²) = 0.05; k for p = 95 % is 1.96.
+    let sheet = write(
+        &dir,
+        "b.csv",
+        "quantity,standard uncertainty,sensitivity coefficient,contribution\n\
+         k,0.01,3,0.03\nx,0.02,2,0.04\ncombined standard uncertainty u,0.05\ncoverage factor k,2\nexpanded uncertainty U,0.1\n",
+    );
+    let (code, out, err) = incertus(&[
+        "check",
+        model.to_str().unwrap(),
+        "--budget",
+        sheet.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{out}{err}");
+    assert!(out.contains("c(k): stated 3"), "{out}");
+    assert!(out.contains("k: stated 2, computed 1.959964"), "{out}");
+    assert!(out.contains("u_c(y): stated 0.05"), "{out}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -252,6 +252,47 @@ fn names(text: &str, name: &str) -> bool {
             .any(|w| w == name)
 }
 
+/// What a row is: named exactly by its quantity cell; else a summary row
+/// whose label stands in the quantity column (`coverage factor k` is not
+/// the input `k`); else named by a whole word of the cell; else a label
+/// elsewhere in the row.
+fn row_kind<'a>(
+    qtext: &str,
+    row: &[Cell],
+    qcol: usize,
+    model: &Model,
+    report: &'a Report,
+    r: &'a MeasurandResult,
+    target: &incertus_gum::Measurand,
+) -> Result<RowKind<'a>, String> {
+    let q = qtext.trim();
+    let label = label_of(row);
+    let other = || label.map_or(RowKind::Other, |(l, c)| RowKind::Label(l, c));
+    if q.is_empty() {
+        return Ok(other());
+    }
+    let intermediate = |w: &&MeasurandResult, m: &dyn Fn(&str) -> bool| {
+        w.name != r.name && target.formula.depends_on(&w.name) && m(&w.name)
+    };
+    for exact in [true, false] {
+        if !exact && label.is_some_and(|(_, c)| c == qcol) {
+            return Ok(other());
+        }
+        let m = |name: &str| if exact { q == name } else { names(q, name) };
+        if let Some(b) = r.budget.iter().find(|b| m(&b.input)) {
+            return Ok(RowKind::Input(b));
+        }
+        if m(&r.name) {
+            return Ok(RowKind::Result);
+        }
+        if let Some(w) = report.results.iter().find(|w| intermediate(w, &m)) {
+            let c = intermediate_coefficient(model, report, target, w)?;
+            return Ok(RowKind::Intermediate(w, c));
+        }
+    }
+    Ok(other())
+}
+
 /// Check the budget rows below the header against the model.
 pub(crate) fn check(
     grid: &Grid,
@@ -298,20 +339,7 @@ pub(crate) fn check(
             .get(qcol)
             .and_then(|c| c.text.clone())
             .unwrap_or_default();
-        let kind = if qtext.trim().is_empty() {
-            label_of(row).map_or(RowKind::Other, |(l, c)| RowKind::Label(l, c))
-        } else if let Some(b) = r.budget.iter().find(|b| names(&qtext, &b.input)) {
-            RowKind::Input(b)
-        } else if names(&qtext, &r.name) {
-            RowKind::Result
-        } else if let Some(w) = report.results.iter().find(|w| {
-            w.name != r.name && target.formula.depends_on(&w.name) && names(&qtext, &w.name)
-        }) {
-            let c = intermediate_coefficient(model, report, target, w)?;
-            RowKind::Intermediate(w, c)
-        } else {
-            label_of(row).map_or(RowKind::Other, |(l, c)| RowKind::Label(l, c))
-        };
+        let kind = row_kind(&qtext, row, qcol, model, report, r, target)?;
         let cell = |k: Col| col(k).and_then(|c| row.get(c).map(|x| (c, x)));
         match kind {
             RowKind::Input(b) => {
