@@ -191,7 +191,8 @@ fn nothing_is_wider_than_an_a4_or_letter_page() {
     // Content widths: A4 210 mm and Letter 215.9 mm less the report's
     // margins of 2 × 12 mm, at 96 px per inch.
     let px = |mm: f64| (mm / 25.4 * 96.0).floor() as u32;
-    // The report folders of eval, of a fit on its own and of a table of items.
+    // The report folders of eval, of a fit on its own, of a table of items
+    // and of the demonstration.
     let mut folders = reports("print-width");
     let extra = scratch("print-width-more");
     let fit = extra.join("fit");
@@ -224,6 +225,10 @@ fn nothing_is_wider_than_an_a4_or_letter_page() {
     ]);
     assert_eq!(code, 0, "{err}");
     folders.push(items);
+    let demo = extra.join("demo");
+    let (code, _, err) = incertus(&["demo", "--out", demo.to_str().unwrap()]);
+    assert_eq!(code, 0, "{err}");
+    folders.push(demo);
     for dir in folders {
         let html = read(&dir.join("report.html"));
         let probe = dir.join("probe.html");
