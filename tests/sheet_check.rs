@@ -223,5 +223,20 @@ fn labels_and_inputs_with_short_names() {
     assert!(out.contains("c(k): stated 3"), "{out}");
     assert!(out.contains("k: stated 2, computed 1.959964"), "{out}");
     assert!(out.contains("u_c(y): stated 0.05"), "{out}");
+    // A CSV cell is named by its line in the file, also after a quoted
+    // cell that spans two lines.
+    let sheet = write(
+        &dir,
+        "ml.csv",
+        "quantity,standard uncertainty,contribution\n\"k\nthe factor\",0.01,0.03\nx,0.02,0.05\n",
+    );
+    let (code, out, _) = incertus(&[
+        "check",
+        model.to_str().unwrap(),
+        "--budget",
+        sheet.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 1, "{out}");
+    assert!(out.contains("DISAGREES line 4, column 3"), "{out}");
     let _ = std::fs::remove_dir_all(&dir);
 }

@@ -61,7 +61,7 @@ impl Checked {
             "check of the budget of {} in {}\nheader row {}: {}\n",
             self.measurand,
             grid.name,
-            grid.origin.0 + header + 1,
+            grid.row_number(header),
             cols.iter()
                 .map(|(c, k)| format!("{} = {}", k.name(), grid.cell_name(header, *c)))
                 .collect::<Vec<_>>()
@@ -118,7 +118,7 @@ impl Checked {
         serde_json::json!({
             "file": grid.name,
             "measurand": self.measurand,
-            "header_row": grid.origin.0 + header + 1,
+            "header_row": grid.row_number(header),
             "columns": cols.iter().map(|(c, k)| serde_json::json!({"column": k.name(), "cell": grid.cell_name(header, *c)})).collect::<Vec<_>>(),
             "lines": self.lines,
             "notes": self.notes,

@@ -33,6 +33,9 @@ pub(crate) struct Grid {
     /// The unit a column's title states (`Contribution (mg)`), by column,
     /// once the header is found.
     pub column_units: Vec<Option<incertus_units::Unit>>,
+    /// For a CSV table, the file's line of each row (a quoted cell may
+    /// span lines).
+    pub lines: Vec<u64>,
 }
 
 /// Column letters of a 0-based column (`A`, `Z`, `AA`).
@@ -49,12 +52,20 @@ pub(crate) fn letters(mut c: usize) -> String {
 }
 
 impl Grid {
+    /// The 1-based row of the sheet (or line of the file) of grid row `r`.
+    pub(crate) fn row_number(&self, r: usize) -> u64 {
+        self.lines
+            .get(r)
+            .copied()
+            .unwrap_or((self.origin.0 + r + 1) as u64)
+    }
+
     /// The name of the cell at (row, column) of the grid.
     pub(crate) fn cell_name(&self, r: usize, c: usize) -> String {
         let (r0, c0) = self.origin;
         match &self.sheet {
             Some(s) => format!("{s}!{}{}", letters(c0 + c), r0 + r + 1),
-            None => format!("line {}, column {}", r0 + r + 1, c0 + c + 1),
+            None => format!("line {}, column {}", self.row_number(r), c0 + c + 1),
         }
     }
 }
@@ -198,6 +209,7 @@ pub(crate) fn read(file: &Path, sheet: Option<&str>, max_bytes: u64) -> Result<G
         origin: (r0, c0),
         rows,
         column_units: Vec::new(),
+        lines: Vec::new(),
     })
 }
 
@@ -208,9 +220,10 @@ fn read_csv(file: &Path, max_bytes: u64) -> Result<Grid, String> {
         .has_headers(false)
         .flexible(true)
         .from_reader(f);
-    let mut rows = Vec::new();
+    let (mut rows, mut lines) = (Vec::new(), Vec::new());
     for rec in reader.records() {
         let rec = rec.map_err(|e| format!("{}: {e}", file.display()))?;
+        lines.push(rec.position().map_or(rows.len() as u64 + 1, |p| p.line()));
         rows.push(rec.iter().map(text_cell).collect());
     }
     Ok(Grid {
@@ -219,5 +232,6 @@ fn read_csv(file: &Path, max_bytes: u64) -> Result<Grid, String> {
         origin: (0, 0),
         rows,
         column_units: Vec::new(),
+        lines,
     })
 }
