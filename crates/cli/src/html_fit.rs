@@ -22,11 +22,13 @@ pub(crate) fn parameter_unit_as_written(f: &NamedFit, power: usize) -> String {
     incertus_units::quotient(y, &incertus_units::power(x, power as i32))
 }
 
+/// `quantity / unit` for a column title, the unit as the SI Brochure
+/// prints it.
 fn axis(name: &str, unit: &Option<String>) -> String {
-    match unit {
-        Some(u) if !u.is_empty() => format!("{name} / {}", incertus_units::si_symbols(u)),
-        _ => name.to_string(),
-    }
+    crate::report::with_unit(
+        name,
+        unit.as_deref().map(incertus_units::si_symbols).as_deref(),
+    )
 }
 
 /// The section of every fit of the report.
@@ -198,35 +200,7 @@ fn data_table(f: &NamedFit) -> String {
         rows: r
             .points
             .iter()
-            .map(|p| {
-                vec![
-                    p.row.to_string(),
-                    significant(p.x, 10),
-                    significant(p.y, 10),
-                    significant(p.residual, 4),
-                    significant(p.studentized_residual, 3),
-                    if p.leverage.is_finite() {
-                        format!("{:.3}", p.leverage)
-                    } else {
-                        "-".into()
-                    },
-                    if p.cooks_distance.is_finite() {
-                        format!("{:.3}", p.cooks_distance)
-                    } else {
-                        "-".into()
-                    },
-                    if p.excluded {
-                        format!(
-                            "EXCLUDED: {}",
-                            r.exclude_reason.as_deref().unwrap_or("(no reason given)")
-                        )
-                    } else if p.flagged {
-                        format!("flagged: {}", p.flags.join("; "))
-                    } else {
-                        String::new()
-                    },
-                ]
-            })
+            .map(|p| crate::report::point_cells(r, p, 10))
             .collect(),
     };
     crate::html::table(

@@ -93,19 +93,10 @@ pub(crate) fn slug(s: &str) -> String {
         .collect()
 }
 
-/// `quantity / unit` for an axis (parentheses around a compound unit).
+/// `quantity / unit` for an axis (parentheses around a compound unit),
+/// the unit as the SI Brochure prints it.
 fn axis_label(quantity: &str, unit: Option<&str>) -> String {
-    match unit.map(str::trim) {
-        Some(u) if !u.is_empty() && u != "1" => {
-            let u = incertus_units::si_symbols(u);
-            if u.contains(['/', ' ', '·']) {
-                format!("{quantity} / ({u})")
-            } else {
-                format!("{quantity} / {u}")
-            }
-        }
-        _ => quantity.to_string(),
-    }
+    crate::report::with_unit(quantity, unit.map(incertus_units::si_symbols).as_deref())
 }
 
 /// The y label of a probability density over a quantity with `unit`.

@@ -620,6 +620,46 @@ pub fn with_unit(quantity: &str, unit: Option<&str>) -> String {
     }
 }
 
+/// One data point of a fit as table cells: row, x and y (to `digits`
+/// significant digits), residual, studentised residual, leverage, Cook's
+/// distance and a note (excluded with the reason, or flagged with why).
+pub(crate) fn point_cells(
+    f: &incertus_fit::FitResult,
+    p: &incertus_fit::Point,
+    digits: usize,
+) -> Vec<String> {
+    let fixed = |v: f64| {
+        if v.is_finite() {
+            format!("{v:.3}")
+        } else {
+            "-".into()
+        }
+    };
+    let note = if p.excluded {
+        format!(
+            "EXCLUDED{}",
+            f.exclude_reason
+                .as_ref()
+                .map(|r| format!(": {r}"))
+                .unwrap_or_default()
+        )
+    } else if p.flagged {
+        format!("flagged: {}", p.flags.join("; "))
+    } else {
+        String::new()
+    };
+    vec![
+        p.row.to_string(),
+        significant(p.x, digits),
+        significant(p.y, digits),
+        significant(p.residual, 4),
+        significant(p.studentized_residual, 3),
+        fixed(p.leverage),
+        fixed(p.cooks_distance),
+        note,
+    ]
+}
+
 /// A fit of a model as text, its columns titled with their units.
 fn named_fit_text(f: &incertus_gum::model::NamedFit) -> String {
     fit_text(
@@ -712,39 +752,7 @@ pub fn fit_text(title: &str, f: &incertus_fit::FitResult, axes: [&str; 2]) -> St
     .iter()
     .map(|s| s.to_string())
     .collect::<Vec<_>>()];
-    for p in &f.points {
-        let note = if p.excluded {
-            format!(
-                "EXCLUDED{}",
-                f.exclude_reason
-                    .as_ref()
-                    .map(|r| format!(": {r}"))
-                    .unwrap_or_default()
-            )
-        } else if p.flagged {
-            format!("flagged: {}", p.flags.join("; "))
-        } else {
-            String::new()
-        };
-        rows.push(vec![
-            p.row.to_string(),
-            significant(p.x, 8),
-            significant(p.y, 8),
-            significant(p.residual, 4),
-            significant(p.studentized_residual, 3),
-            if p.leverage.is_finite() {
-                format!("{:.3}", p.leverage)
-            } else {
-                "-".into()
-            },
-            if p.cooks_distance.is_finite() {
-                format!("{:.3}", p.cooks_distance)
-            } else {
-                "-".into()
-            },
-            note,
-        ]);
-    }
+    rows.extend(f.points.iter().map(|p| point_cells(f, p, 8)));
     out.push_str(&aligned(&rows));
     if let Some(w) = &f.without_exclusions {
         out.push_str(&format!(

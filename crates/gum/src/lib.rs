@@ -79,7 +79,8 @@ pub fn units_factor(unit: &str) -> Option<f64> {
 }
 pub use limits::Limits;
 pub use load::{
-    load_file, load_file_with, load_str, load_str_with, ModelError, ModelErrorKind, MAX_FILE_BYTES,
+    load_file, load_file_described, load_file_with, load_str, load_str_described, load_str_with,
+    ModelError, ModelErrorKind, MAX_FILE_BYTES,
 };
 pub use model::{Correlation, Distribution, DofRounding, Evaluation, Input, Measurand, Model};
 pub use propagate::{

@@ -27,7 +27,7 @@ use std::io::Write;
 use std::path::Path;
 
 use incertus_gum::batch::{Batch, ItemError};
-use incertus_gum::description::{item_key_kind, InputDescription, KeyValue, ModelDescription};
+use incertus_gum::description::{item_key_kind, InputDescription, KeyValue};
 use incertus_gum::Report;
 use rayon::prelude::*;
 
@@ -463,14 +463,9 @@ pub(crate) fn run(
     out: &mut dyn Write,
     err: &mut dyn Write,
 ) -> Result<(), Failure> {
-    let model = crate::eval_cmd::load(file)?;
     let limits = opts.limits;
-    let text = String::from_utf8(
-        incertus_fit::read_regular(file, limits.max_file_bytes)
-            .map_err(|e| Failure::input(format!("{}: {e}", file.display())))?,
-    )
-    .map_err(|_| Failure::input(format!("{}: not UTF-8 text", file.display())))?;
-    let description = ModelDescription::from_toml(&text, &file.display().to_string())
+    // The model and the description it was validated from, from one read.
+    let (description, model) = incertus_gum::load_file_described(file, &limits)
         .map_err(|e| Failure::input(e.to_string()))?;
     let batch = Batch::new(description, model, opts);
     let items = read_items(

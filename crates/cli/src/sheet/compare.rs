@@ -340,42 +340,26 @@ pub(crate) fn check(
             .and_then(|c| c.text.clone())
             .unwrap_or_default();
         let kind = row_kind(&qtext, row, qcol, model, report, r, target)?;
-        let cell = |k: Col| col(k).and_then(|c| row.get(c).map(|x| (c, x)));
+        let rc = RowCx {
+            grid,
+            ri,
+            row,
+            cols,
+            model,
+            report,
+            r,
+            target,
+            y_unit: &y_unit,
+        };
+        let cell = |k: Col| rc.cell(k);
         match kind {
             RowKind::Input(b) => {
                 listed.push(b.input.clone());
-                let rc = RowCx {
-                    grid,
-                    ri,
-                    row,
-                    cols,
-                    model,
-                    report,
-                    r,
-                    target,
-                    y_unit: &y_unit,
-                };
-                input_row(
-                    &rc,
-                    b,
-                    in_terms_of_intermediates,
-                    &mut lines,
-                    &mut stated_contributions,
-                )?;
+                let own = in_terms_of_intermediates;
+                input_row(&rc, b, own, &mut lines, &mut stated_contributions)?;
             }
             RowKind::Intermediate(w, c) => {
                 listed.push(w.name.clone());
-                let rc = RowCx {
-                    grid,
-                    ri,
-                    row,
-                    cols,
-                    model,
-                    report,
-                    r,
-                    target,
-                    y_unit: &y_unit,
-                };
                 intermediate_row(&rc, w, c, &mut lines, &mut stated_contributions);
             }
             RowKind::Result => {

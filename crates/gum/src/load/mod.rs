@@ -108,6 +108,15 @@ pub fn load_file(path: &Path) -> Result<Model, ModelError> {
 
 /// Read and load a model file with explicit limits.
 pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError> {
+    load_file_described(path, limits).map(|(_, model)| model)
+}
+
+/// [`load_file_with`], also giving the description the model was
+/// validated from (read once: the file is not read again for it).
+pub fn load_file_described(
+    path: &Path,
+    limits: &Limits,
+) -> Result<(ModelDescription, Model), ModelError> {
     let file = path.display().to_string();
     let whole = |message: String| ModelError {
         kind: ModelErrorKind::File,
@@ -150,12 +159,12 @@ pub fn load_file_with(path: &Path, limits: &Limits) -> Result<Model, ModelError>
             e.utf8_error().valid_up_to()
         ))
     })?;
-    let mut model = load_str_with(&text, &file, limits)?;
+    let (description, mut model) = load_str_described(&text, &file, limits)?;
     // A model without a title is called by its file name.
     if model.title.is_none() {
         model.title = path.file_name().map(|n| n.to_string_lossy().into_owned());
     }
-    Ok(model)
+    Ok((description, model))
 }
 
 /// Load a model from TOML text with the default [`Limits`]; `file` names
@@ -167,6 +176,16 @@ pub fn load_str(text: &str, file: &str) -> Result<Model, ModelError> {
 /// Load a model from TOML text with explicit limits: the text is read
 /// into a [`ModelDescription`] (keeping where each key stood) and validated.
 pub fn load_str_with(text: &str, file: &str, limits: &Limits) -> Result<Model, ModelError> {
+    load_str_described(text, file, limits).map(|(_, model)| model)
+}
+
+/// [`load_str_with`], also giving the description the model was validated
+/// from.
+pub fn load_str_described(
+    text: &str,
+    file: &str,
+    limits: &Limits,
+) -> Result<(ModelDescription, Model), ModelError> {
     let (description, places) = describe_str(text, file)?;
     let origin = Origin {
         file: file.to_string(),
@@ -177,7 +196,8 @@ pub fn load_str_with(text: &str, file: &str, limits: &Limits) -> Result<Model, M
             .map(Path::to_path_buf)
             .unwrap_or_default(),
     };
-    crate::validate::validate(&description, &origin, limits)
+    let model = crate::validate::validate(&description, &origin, limits)?;
+    Ok((description, model))
 }
 
 /// Read model-file text into a description and the places of its keys.
