@@ -256,7 +256,10 @@ fn results_section(p: &Parts) -> String {
                     r.name.clone(),
                     r.unit.clone().unwrap_or_default(),
                     significant(rep.value, 10),
-                    significant(rep.standard_uncertainty, 5),
+                    rep.standard_uncertainty
+                        .map_or("none (no finite variance)".to_string(), |u| {
+                            significant(u, 5)
+                        }),
                     significant(rep.expanded_uncertainty, 5),
                     if first {
                         significant(r.coverage_factor, 4)
@@ -659,7 +662,11 @@ fn monte_carlo_section(report: &Report, mc: &McReport) -> String {
                 r.name.clone(),
                 r.unit.clone().unwrap_or_default(),
                 significant(m.value, 10),
-                significant(m.standard_uncertainty, 5),
+                if m.finite_variance {
+                    significant(m.standard_uncertainty, 5)
+                } else {
+                    "none (no finite variance)".to_string()
+                },
                 format!(
                     "[{}, {}]",
                     significant(m.symmetric_interval[0], 8),

@@ -489,7 +489,17 @@ fn conformity_svg(
         let mut chart = chart(
             &plot,
             &{
-                let pc = incertus_gum::conformity::probability(c.conformance_probability);
+                let pc = match (&c.monte_carlo, c.decided_on_trials) {
+                    (Some(m), true) if m.inside == 0 || m.inside >= m.trials => {
+                        let b = incertus_gum::conformity::zero_count_bound(m.trials);
+                        if m.inside == 0 {
+                            format!("< {}", incertus_gum::conformity::probability(b))
+                        } else {
+                            format!("> {}", incertus_gum::conformity::probability(1.0 - b))
+                        }
+                    }
+                    _ => c.conformance_text(),
+                };
                 let rel = if pc.starts_with(['<', '>']) { "" } else { "= " };
                 format!("{}: p_c {rel}{pc}, {}", r.name, c.verdict)
             },

@@ -368,8 +368,22 @@ pub(crate) fn result_sentence(r: &MeasurandResult, style: Style) -> String {
     let rep = &r.reported;
     let p = percent(rep.coverage_probability);
     if rep.method == incertus_gum::Method::MonteCarlo {
-        let w = write(rep.value, rep.standard_uncertainty, style.digits);
-        let like = write(rep.value, rep.standard_uncertainty, style.digits + 1);
+        let Some(u) = rep.standard_uncertainty else {
+            let like = write(rep.value, rep.expanded_uncertainty, style.digits + 1);
+            let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
+            return format!(
+                "The probabilistically symmetric coverage interval of {name} for a coverage probability \
+                 of {p} is [{}, {}]{unit}; {name} has no standard uncertainty, as an input it depends on \
+                 has no finite variance. Evaluated by propagation of distributions (JCGM 101:2008) with {} \
+                 trials, because {}.",
+                end(rep.coverage_interval[0]),
+                end(rep.coverage_interval[1]),
+                r.monte_carlo.as_ref().map_or(0, |m| m.trials),
+                rep.why
+            );
+        };
+        let w = write(rep.value, u, style.digits);
+        let like = write(rep.value, u, style.digits + 1);
         let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
         return format!(
             "{name} = {}{unit} (the standard uncertainty u in parentheses, in units of the last digits); \
@@ -456,13 +470,18 @@ fn result_lines(r: &MeasurandResult, report: &Report, style: Style) -> Vec<Strin
         // JCGM 101:2008, 8.2: the first-order result was not validated, so
         // the Monte Carlo result is the reported one.
         let rep = &r.reported;
-        let w = write(rep.value, rep.standard_uncertainty, style.digits);
-        let like = write(rep.value, rep.standard_uncertainty, style.digits + 1);
+        let basis = rep.standard_uncertainty.unwrap_or(rep.expanded_uncertainty);
+        let like = write(rep.value, basis, style.digits + 1);
         let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
-        lines.push(format!(
-            "result   {name} = {}{unit}   (REPORTED RESULT, by propagation of distributions, JCGM 101:2008; in parentheses: u in units of the last digits)",
-            w.concise
-        ));
+        match rep.standard_uncertainty {
+            Some(u) => lines.push(format!(
+                "result   {name} = {}{unit}   (REPORTED RESULT, by propagation of distributions, JCGM 101:2008; in parentheses: u in units of the last digits)",
+                write(rep.value, u, style.digits).concise
+            )),
+            None => lines.push(format!(
+                "result   {name}: no standard uncertainty (an input without a finite variance); the coverage interval below is the REPORTED RESULT, by propagation of distributions, JCGM 101:2008"
+            )),
+        }
         lines.push(format!(
             "         {} coverage interval [{}, {}]{unit}   (probabilistically symmetric, JCGM 101:2008, 7.7)",
             percent(rep.coverage_probability),
@@ -558,14 +577,14 @@ pub(crate) fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
         ),
         format!(
             "  conformance probability p_c        {}  ({})",
-            probability(c.conformance_probability),
+            c.conformance_text(),
             c.distribution
         ),
     ];
     if let Some(m) = &c.monte_carlo {
         lines.push(format!(
             "  p_c by Monte Carlo                 {}  ({} of {} trials inside; standard uncertainty {})",
-            probability(m.conformance_probability),
+            m.conformance_text(),
             m.inside,
             m.trials,
             probability(m.standard_uncertainty)
@@ -575,7 +594,7 @@ pub(crate) fn conformity_lines(r: &MeasurandResult) -> Vec<String> {
         "  verdict                            {}, specific {} risk {}",
         c.verdict.to_string().to_uppercase(),
         c.specific_risk_kind,
-        probability(c.specific_risk)
+        c.risk_text()
     ));
     if let Some(cm) = c.measurement_capability_index {
         lines.push(format!(
@@ -790,9 +809,17 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
     let name = &r.name;
     let p = percent(m.coverage_probability);
     // Interval ends to one digit more than the standard uncertainty shows.
-    let like = write(m.value, m.standard_uncertainty, style.digits + 1);
+    let basis = if m.finite_variance {
+        m.standard_uncertainty
+    } else {
+        0.5 * (m.symmetric_interval[1] - m.symmetric_interval[0])
+    };
+    let like = write(m.value, basis, style.digits + 1);
     let end = |v: f64| incertus_gum::rounding::write_like(v, &like);
     let w = write(m.value, m.standard_uncertainty, style.digits);
+    let no_u =
+        "none: an input has no finite variance (t with ν ≤ 2, JCGM 101:2008, 6.4.9.4), so the \
+                standard deviation of the trials estimates nothing";
     let mut lines = vec![
         format!(
             "propagation of distributions (JCGM 101:2008): {} trials, seed {}{}",
@@ -818,12 +845,20 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
             significant(m.value, 10)
         ),
         format!(
-            "  standard uncertainty                u({name}) = {}{unit}",
-            significant(m.standard_uncertainty, 5)
+            "  standard uncertainty                u({name}) = {}",
+            if m.finite_variance {
+                format!("{}{unit}", significant(m.standard_uncertainty, 5))
+            } else {
+                no_u.to_string()
+            }
         ),
         format!(
-            "  result                              {name} = {}{unit}",
-            w.concise
+            "  result                              {}",
+            if m.finite_variance {
+                format!("{name} = {}{unit}", w.concise)
+            } else {
+                "the coverage intervals below".to_string()
+            }
         ),
         format!(
             "  probabilistically symmetric {p} coverage interval  [{}, {}]{unit}",
@@ -841,7 +876,7 @@ fn mc_lines(r: &MeasurandResult, m: &McMeasurand, mc: &McReport, style: Style) -
             end(r.value + r.expanded_uncertainty)
         ),
     ];
-    if let Some(ratio) = m.t_sampling_variance_ratio {
+    if let Some(ratio) = m.t_sampling_variance_ratio.filter(|_| m.finite_variance) {
         let observed = m.standard_uncertainty / r.standard_uncertainty;
         lines.push(if ratio.is_finite() {
             format!(

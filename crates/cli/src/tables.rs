@@ -51,7 +51,9 @@ pub fn results_csv(report: &Report) -> String {
             csv_field(&r.name),
             csv_field(r.unit.as_deref().unwrap_or("")),
             table_number(rep.value),
-            table_number(rep.standard_uncertainty),
+            rep.standard_uncertainty
+                .map(table_number)
+                .unwrap_or_default(),
             table_number(rep.expanded_uncertainty),
             // k and ν_eff belong to the first-order result; a Monte Carlo
             // interval comes from the distribution of the trials.
@@ -74,7 +76,9 @@ pub fn results_csv(report: &Report) -> String {
             table_number(rep.coverage_interval[1]),
             table_number(r.value),
             table_number(r.standard_uncertainty),
-            mcf(&|m| m.standard_uncertainty),
+            mc.filter(|m| m.finite_variance)
+                .map(|m| table_number(m.standard_uncertainty))
+                .unwrap_or_default(),
             mcf(&|m| m.symmetric_interval[0]),
             mcf(&|m| m.symmetric_interval[1]),
             mcf(&|m| m.shortest_interval[0]),
@@ -259,7 +263,9 @@ pub fn csv(report: &Report) -> String {
             ("value", table_number(rep.value)),
             (
                 "standard_uncertainty",
-                table_number(rep.standard_uncertainty),
+                rep.standard_uncertainty
+                    .map(table_number)
+                    .unwrap_or_default(),
             ),
             (
                 "expanded_uncertainty",

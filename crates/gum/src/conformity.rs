@@ -290,6 +290,104 @@ pub struct McConformance {
     /// For a rule set by a largest specific risk: whether the Monte Carlo
     /// risk leads to the same verdict as the first-order one.
     pub same_verdict: Option<bool>,
+    /// When no trial fell on the side of risk: the one-sided 95 % upper
+    /// bound of the risk ([`zero_count_bound`]).
+    pub specific_risk_upper_bound: Option<f64>,
+}
+
+/// The one-sided 95 % upper confidence bound of a probability of which 0
+/// of `trials` independent trials showed an instance: 1 − 0.05^(1/N), the
+/// exact binomial (Clopper-Pearson, 1934) bound for a count of zero, about
+/// 3/N for large N ("rule of three"; both recalled from memory and checked
+/// in `crates/gum/tests/conformity.rs` against the binomial probability
+/// (1 − b)^N = 0.05 it solves).
+///
+/// ```
+/// use incertus_gum::conformity::zero_count_bound;
+/// let b = zero_count_bound(20_000);
+/// assert!((b * 20_000.0 - 2.9957).abs() < 1e-3);
+/// ```
+pub fn zero_count_bound(trials: usize) -> f64 {
+    if trials == 0 {
+        return 1.0;
+    }
+    -(0.05f64.ln() / trials as f64).exp_m1()
+}
+
+/// A probability that is the fraction `count/trials` of Monte Carlo
+/// trials, in words: the fraction, or, when the count is 0 or all of the
+/// trials, the one-sided 95 % bound that the count supports (never a
+/// figure finer than the trials can show).
+///
+/// ```
+/// use incertus_gum::conformity::counted_probability;
+/// assert!(counted_probability(0, 20_000).starts_with("below 0.01498 %"));
+/// assert!(counted_probability(20_000, 20_000).starts_with("above 99.98502 %"));
+/// assert_eq!(counted_probability(5_000, 20_000), "25 %");
+/// ```
+pub fn counted_probability(count: usize, trials: usize) -> String {
+    if trials == 0 {
+        return "not available".into();
+    }
+    let b = zero_count_bound(trials);
+    let rule = "one-sided 95 % upper bound 1 − 0.05^(1/N) of a count of zero, about 3/N";
+    if count == 0 {
+        format!("below {} (none of {trials} trials; {rule})", percent(b))
+    } else if count >= trials {
+        format!(
+            "above {} (all of {trials} trials; {rule})",
+            probability(1.0 - b)
+        )
+    } else {
+        probability(count as f64 / trials as f64)
+    }
+}
+
+impl McConformance {
+    /// p_c in words ([`counted_probability`]).
+    pub fn conformance_text(&self) -> String {
+        counted_probability(self.inside, self.trials)
+    }
+
+    /// The specific risk in words for a decision that accepted the item
+    /// (`accepted`) or rejected it.
+    pub fn risk_text(&self, accepted: bool) -> String {
+        let count = if accepted {
+            self.trials - self.inside.min(self.trials)
+        } else {
+            self.inside
+        };
+        counted_probability(count, self.trials)
+    }
+
+    fn risk_bound(&self, accepted: bool) -> Option<f64> {
+        let count = if accepted {
+            self.trials - self.inside.min(self.trials)
+        } else {
+            self.inside
+        };
+        (count == 0 && self.trials > 0).then(|| zero_count_bound(self.trials))
+    }
+}
+
+impl Conformity {
+    /// The conformance probability in words: counted from the trials when
+    /// the decision was made on them.
+    pub fn conformance_text(&self) -> String {
+        match (&self.monte_carlo, self.decided_on_trials) {
+            (Some(m), true) => m.conformance_text(),
+            _ => probability(self.conformance_probability),
+        }
+    }
+
+    /// The specific risk in words: counted from the trials when the
+    /// decision was made on them.
+    pub fn risk_text(&self) -> String {
+        match (&self.monte_carlo, self.decided_on_trials) {
+            (Some(m), true) => m.risk_text(self.verdict.accepted()),
+            _ => probability(self.specific_risk),
+        }
+    }
 }
 
 impl McConformance {
@@ -307,6 +405,7 @@ impl McConformance {
             standard_uncertainty: (p * (1.0 - p) / trials as f64).sqrt(),
             specific_risk: f64::NAN,
             same_verdict: None,
+            specific_risk_upper_bound: None,
         }
     }
 }
@@ -346,6 +445,13 @@ pub struct Conformity {
     pub global_risks: Option<GlobalRisks>,
     /// The conformance probability counted from the Monte Carlo trials.
     pub monte_carlo: Option<McConformance>,
+    /// Whether p_c and the specific risk above are fractions of the Monte
+    /// Carlo trials (the decision made on propagation of distributions).
+    pub decided_on_trials: bool,
+    /// When the specific risk is a count of trials and none of them fell
+    /// on the side of risk: the one-sided 95 % upper bound of the risk
+    /// ([`zero_count_bound`]); the counted 0 means only "below this".
+    pub specific_risk_upper_bound: Option<f64>,
     /// The decision rule and the result in words a certificate can quote.
     pub statement: String,
     /// Remarks on the assessment.
@@ -501,6 +607,8 @@ pub fn assess_figures(
         measurement_capability_index: cm,
         global_risks,
         monte_carlo: None,
+        decided_on_trials: false,
+        specific_risk_upper_bound: None,
         statement: String::new(),
         notes,
     };
@@ -512,13 +620,14 @@ pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConfo
     let accepted = c.verdict.accepted();
     let p = mc.conformance_probability;
     mc.specific_risk = if accepted { 1.0 - p } else { p };
+    mc.specific_risk_upper_bound = mc.risk_bound(accepted);
     if disagrees(c.conformance_probability, &mc) {
         let text = format!(
             "the Monte Carlo conformance probability {} (standard uncertainty {}) differs from the \
              first-order {} by more than three standard uncertainties: the first-order distribution \
              does not describe the measurand well here, and the first-order p_c and risks should not \
              be relied on",
-            probability(p),
+            mc.conformance_text(),
             probability(mc.standard_uncertainty),
             probability(c.conformance_probability)
         );
@@ -526,7 +635,7 @@ pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConfo
         c.statement.push_str(&format!(
             " Propagation of distributions (JCGM 101:2008) gives a conformance probability of {}, \
              which disagrees with this first-order figure; review before use.",
-            probability(p)
+            mc.conformance_text()
         ));
     }
     if let Guard::SpecificRisk(alpha) = spec.guard {
@@ -540,7 +649,7 @@ pub fn add_monte_carlo(c: &mut Conformity, spec: &Specification, mut mc: McConfo
             c.notes.push(format!(
                 "the Monte Carlo conformance probability {} would lead to the other verdict under this rule; \
                  the first-order distribution may not describe the measurand well (compare the validation)",
-                crate::rounding::significant_si(p, 4)
+                mc.conformance_text()
             ));
         }
     }
@@ -565,12 +674,20 @@ fn disagrees(first_order: f64, mc: &McConformance) -> bool {
 pub fn decide_on_monte_carlo(
     spec: &Specification,
     value: f64,
-    standard_uncertainty: f64,
+    standard_uncertainty: Option<f64>,
     half_width: f64,
     coverage_probability: f64,
     mut mc: McConformance,
     unit: Option<&str>,
 ) -> Result<Conformity, ConformityError> {
+    // Without a standard uncertainty (inputs without a finite variance) the
+    // guard band of a rule set by a largest risk is that of a normal
+    // distribution with the same coverage interval; the decision itself
+    // rests on the counted trials alone.
+    let no_variance = standard_uncertainty.is_none();
+    let standard_uncertainty = standard_uncertainty.unwrap_or_else(|| {
+        half_width / crate::coverage::normal_quantile(0.5 * (1.0 + coverage_probability))
+    });
     let belief = Belief {
         value,
         standard_uncertainty,
@@ -601,6 +718,9 @@ pub fn decide_on_monte_carlo(
     );
     mc.specific_risk = c.specific_risk;
     mc.same_verdict = None;
+    mc.specific_risk_upper_bound = mc.risk_bound(accepted);
+    c.specific_risk_upper_bound = mc.specific_risk_upper_bound;
+    c.decided_on_trials = true;
     c.monte_carlo = Some(mc);
     c.notes.push(
         "decided on the result of propagation of distributions (JCGM 101:2008, 8.2), because the \
@@ -608,6 +728,14 @@ pub fn decide_on_monte_carlo(
          fraction of trials inside the tolerance interval"
             .to_string(),
     );
+    if no_variance {
+        c.notes.push(
+            "the result has no standard uncertainty (an input without a finite variance); the \
+             decision rests on the fraction of trials alone, and a guard band set by a largest risk \
+             is that of a normal distribution with the same coverage interval"
+                .to_string(),
+        );
+    }
     c.statement = statement(&c, belief, half_width, unit);
     c.statement.push_str(
         " Result and conformance probability by propagation of distributions (JCGM 101:2008); the \
@@ -919,8 +1047,8 @@ fn statement(c: &Conformity, belief: Belief, big_u: f64, unit: Option<&str>) -> 
         "{rule} Measured value {}{unit_text}: {}. Conformance probability {}; {who}: {}.",
         at(belief.value),
         c.verdict,
-        probability(c.conformance_probability),
-        probability(c.specific_risk)
+        c.conformance_text(),
+        c.risk_text()
     )
 }
 

@@ -67,4 +67,10 @@ pub struct McMeasurand {
     /// u²(MC)/u²(first order) this alone leads to, Σ share_i · ν_i/(ν_i − 2)
     /// over the budget (correlation terms left out); `None` when it is 1.
     pub t_sampling_variance_ratio: Option<f64>,
+    /// Whether the output has a finite variance: false when an input it
+    /// depends on is sampled from a distribution without one (t with
+    /// ν ≤ 2, JCGM 101:2008, 6.4.9.4; quantities observed together with
+    /// n − N ≤ 2, 6.4.8). Then the standard deviation of the trials is no
+    /// estimate of anything and only the coverage intervals are results.
+    pub finite_variance: bool,
 }

@@ -19,6 +19,7 @@
 
 #![warn(missing_docs)]
 
+pub mod copula;
 mod sample;
 pub mod stats;
 
@@ -511,13 +512,22 @@ impl Engine<'_> {
 }
 
 /// Numerical tolerance δ of a standard uncertainty to `ndig` significant
-/// digits: u = c × 10^l with c an ndig-digit integer, δ = ½ × 10^l
-/// (JCGM 101:2008, 7.9.2).
+/// digits: u = c × 10^l with c an ndig-digit integer after rounding,
+/// δ = ½ × 10^l (JCGM 101:2008, 7.9.2).
+///
+/// ```
+/// use incertus_mc::numerical_tolerance;
+/// assert_eq!(numerical_tolerance(0.0996, 2), 0.005); // 10 × 10⁻²
+/// assert_eq!(numerical_tolerance(0.0946, 2), 0.0005); // 95 × 10⁻³
+/// ```
 pub fn numerical_tolerance(u: f64, ndig: u32) -> f64 {
     if u <= 0.0 || !u.is_finite() {
         return 0.0;
     }
-    let l = u.log10().floor() as i32 - (ndig as i32 - 1);
+    // u rounded to ndig significant digits on its decimal digits, with the
+    // carry: 0.0996 to two digits is 0.10 = 10 × 10⁻², so l = −2 (not −3,
+    // which log10 of the unrounded u would give).
+    let (_, l) = incertus_gum::rounding::round_to_digits(u, ndig);
     0.5 * 10f64.powi(l)
 }
 
@@ -861,6 +871,12 @@ impl Run<'_> {
             // Stated from 1 % in variance (0.5 % in u) on.
             (share > 0.0 && ratio / share > 1.01).then(|| ratio / share)
         };
+        let finite_variance = !g.budget.iter().any(|b| {
+            b.standard_uncertainty > 0.0
+                && t_factors
+                    .get(b.input.as_str())
+                    .is_some_and(|f| f.is_infinite())
+        });
         let delta = numerical_tolerance(g.standard_uncertainty, settings.ndig);
         let d_low = (g.value - g.expanded_uncertainty - sym[0]).abs();
         let d_high = (g.value + g.expanded_uncertainty - sym[1]).abs();
@@ -889,6 +905,7 @@ impl Run<'_> {
             histogram: summary.histogram,
             conformance,
             t_sampling_variance_ratio,
+            finite_variance,
         }
     }
 }
@@ -1017,17 +1034,24 @@ pub fn attach(model: &Model, report: &mut Report, mc: &McReport) {
                     incertus_gum::rounding::significant_si(m.validation.numerical_tolerance, 3)
                 ),
                 value: m.value,
-                standard_uncertainty: m.standard_uncertainty,
+                standard_uncertainty: m.finite_variance.then_some(m.standard_uncertainty),
                 coverage_probability: m.coverage_probability,
                 coverage_interval: [lo, hi],
                 expanded_uncertainty: 0.5 * (hi - lo),
             };
+            if !m.finite_variance {
+                r.reported.why.push_str(
+                    "; an input is sampled from a distribution without a finite variance (t with \
+                     ν ≤ 2 dof, JCGM 101:2008, 6.4.9.4), so the output has no standard uncertainty \
+                     and the coverage interval alone is the result",
+                );
+            }
             if let (Some(spec), Some(count)) = (meas.specification.as_ref(), m.conformance.as_ref())
             {
                 if let Ok(c) = incertus_gum::conformity::decide_on_monte_carlo(
                     spec,
                     m.value,
-                    m.standard_uncertainty,
+                    m.finite_variance.then_some(m.standard_uncertainty),
                     0.5 * (hi - lo),
                     m.coverage_probability,
                     count.clone(),

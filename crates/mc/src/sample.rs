@@ -27,9 +27,9 @@
 //! - Any other correlated group (non-Gaussian or mixed marginals): a Gaussian
 //!   copula. Correlated standard normals z = L_R g (L_R from the correlation
 //!   matrix) are mapped to uniforms Φ(z) and through each marginal's inverse
-//!   distribution function. The stated coefficients are the correlations of
-//!   the underlying normals; the product-moment correlation of non-Gaussian
-//!   marginals is close to, not exactly, the stated value (the report says so).
+//!   distribution function. The copula's parameters are chosen so that the
+//!   sampled inputs have the stated product-moment correlations
+//!   (`crate::copula`).
 
 use incertus_gum::matrix::cholesky_semidefinite;
 use incertus_gum::{Distribution, Evaluation, Model};
@@ -256,7 +256,7 @@ impl Marginal {
 
     /// The inverse distribution function at probability `p` (for the
     /// Gaussian copula).
-    fn quantile(&self, p: f64) -> f64 {
+    pub(crate) fn quantile(&self, p: f64) -> f64 {
         let p = p.clamp(1e-300, 1.0 - 1e-16);
         match self {
             Marginal::Fixed(x) => *x,
@@ -314,6 +314,11 @@ fn sin_half_pi_range(t: f64) -> f64 {
         p = p * t2 + c;
     }
     t * p
+}
+
+/// Φ(z), the standard normal distribution function.
+pub(crate) fn normal_cdf(z: f64) -> f64 {
+    std_normal().cdf(z)
 }
 
 fn std_normal() -> StatNormal {
@@ -440,8 +445,10 @@ pub fn describe(groups: &[Group], model: &Model) -> Vec<String> {
                 names(inputs)
             )),
             Group::Copula { inputs, .. } => Some(format!(
-                "{}: Gaussian copula (the stated coefficients are the correlations of the underlying \
-                 normal variables; the marginals keep their own distributions)",
+                "{}: Gaussian copula whose parameters are chosen so that the sampled inputs have \
+                 the stated correlation coefficients (the marginals keep their own distributions; \
+                 a t marginal with ν ≤ 2 has no finite variance, and its coefficient is the \
+                 copula's own)",
                 names(inputs)
             )),
         })
@@ -639,12 +646,56 @@ fn correlated_group(model: &Model, members: Vec<usize>) -> Result<Group, String>
                 model.inputs[members[pos]].name
             ));
         }
+        let rho = copula_parameters(model, &members, &marginals, &r)?;
+        let l = cholesky_semidefinite(&rho).map_err(|_| {
+            format!(
+                "the correlation coefficients of {} need Gaussian-copula parameters that form no \
+                 valid correlation matrix, so these marginals cannot be sampled with them jointly",
+                group_names.join(", ")
+            )
+        })?;
         Ok(Group::Copula {
             inputs: members,
-            l: chol(&r)?,
+            l,
             marginals,
         })
     }
+}
+
+/// The copula parameter of every pair, so that the sampled inputs have the
+/// stated product-moment correlations (`crate::copula`); a coefficient the
+/// two marginals cannot have is refused with the range they can.
+fn copula_parameters(
+    model: &Model,
+    members: &[usize],
+    marginals: &[Marginal],
+    r: &[Vec<f64>],
+) -> Result<Vec<Vec<f64>>, String> {
+    let k = members.len();
+    let transforms: Vec<Option<crate::copula::Transform>> =
+        marginals.iter().map(crate::copula::Transform::of).collect();
+    let mut rho = r.to_vec();
+    for a in 0..k {
+        for b in a + 1..k {
+            if r[a][b] == 0.0 {
+                continue;
+            }
+            let (Some(ta), Some(tb)) = (&transforms[a], &transforms[b]) else {
+                continue;
+            };
+            let p = crate::copula::parameter(ta, tb, r[a][b]).map_err(|(lo, hi)| {
+                format!(
+                    "`{}` and `{}` are stated with the correlation coefficient {}, which their \
+                     distributions cannot have jointly (with these marginals it lies between \
+                     {lo:.4} and {hi:.4})",
+                    model.inputs[members[a]].name, model.inputs[members[b]].name, r[a][b]
+                )
+            })?;
+            rho[a][b] = p;
+            rho[b][a] = p;
+        }
+    }
+    Ok(rho)
 }
 
 impl Group {

@@ -59,6 +59,8 @@ pub(crate) struct ItemConformity {
     pub verdict: incertus_gum::conformity::Verdict,
     pub risk_kind: incertus_gum::conformity::RiskKind,
     pub specific_risk: f64,
+    /// The specific risk in words (a count of trials says only what it can).
+    pub risk_text: String,
     pub lower: Option<f64>,
     pub upper: Option<f64>,
 }
@@ -71,7 +73,7 @@ pub(crate) struct ItemResult {
     pub name: String,
     pub unit: Option<String>,
     pub value: f64,
-    pub standard_uncertainty: f64,
+    pub standard_uncertainty: Option<f64>,
     pub expanded_uncertainty: f64,
     pub coverage_probability: f64,
     pub interval: [f64; 2],
@@ -99,6 +101,7 @@ impl ItemResult {
                 verdict: c.verdict,
                 risk_kind: c.specific_risk_kind,
                 specific_risk: c.specific_risk,
+                risk_text: c.risk_text(),
                 lower: c.lower_limit,
                 upper: c.upper_limit,
             }),

@@ -69,11 +69,7 @@ pub(crate) fn items_table(items: &[Evaluated], style: Style, si: bool) -> Table 
                 match &r.conformity {
                     Some(c) => {
                         row.push(c.verdict.to_string());
-                        row.push(format!(
-                            "{} {}",
-                            c.risk_kind,
-                            incertus_gum::conformity::probability(c.specific_risk)
-                        ));
+                        row.push(format!("{} {}", c.risk_kind, c.risk_text));
                     }
                     None => row.extend([String::new(), String::new()]),
                 }
@@ -154,7 +150,7 @@ pub(crate) fn csv(items: &[Evaluated]) -> String {
                 csv_field(&r.name),
                 csv_field(r.unit.as_deref().unwrap_or("")),
                 table_number(r.value),
-                table_number(r.standard_uncertainty),
+                r.standard_uncertainty.map(table_number).unwrap_or_default(),
                 table_number(r.expanded_uncertainty),
                 if first {
                     table_number(r.coverage_factor)

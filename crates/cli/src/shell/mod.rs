@@ -382,7 +382,7 @@ impl Shell {
                 m.name,
                 describe_specification(spec),
                 c.verdict,
-                incertus_gum::conformity::probability(c.conformance_probability)
+                c.conformance_text()
             ));
         }
         for l in lines {
@@ -484,12 +484,16 @@ impl Shell {
             Ok(mc) => {
                 let m = &mc.results[j];
                 let w = write(m.value, m.standard_uncertainty, 2);
+                let u_text = if m.finite_variance {
+                    w.with_power(&w.uncertainty)
+                } else {
+                    "none (an input has no finite variance)".to_string()
+                };
                 self.say(format!(
-                    "{name}: {} trials, seed {}: {}, u = {}; {} % interval [{}, {}] (probabilistically symmetric), [{}, {}] (shortest); first-order result {}",
+                    "{name}: {} trials, seed {}: {}, u = {u_text}; {} % interval [{}, {}] (probabilistically symmetric), [{}, {}] (shortest); first-order result {}",
                     m.trials,
                     m.seed,
                     w.with_power(&w.value),
-                    w.with_power(&w.uncertainty),
                     incertus_gum::rounding::significant_si(100.0 * m.coverage_probability, 6),
                     incertus_gum::rounding::significant_si(m.symmetric_interval[0], 6),
                     incertus_gum::rounding::significant_si(m.symmetric_interval[1], 6),

@@ -210,8 +210,10 @@ pub struct ReportedResult {
     pub why: String,
     /// The estimate.
     pub value: f64,
-    /// The standard uncertainty.
-    pub standard_uncertainty: f64,
+    /// The standard uncertainty; `None` when it does not exist (a Monte
+    /// Carlo result of inputs without a finite variance, such as t with
+    /// ν ≤ 2: the coverage interval alone is the result).
+    pub standard_uncertainty: Option<f64>,
     /// The coverage probability.
     pub coverage_probability: f64,
     /// y ± U (first order) or the probabilistically symmetric interval
@@ -1008,7 +1010,7 @@ impl<'a> Context<'a> {
                 method: Method::FirstOrder,
                 why: "the law of propagation of uncertainty (JCGM 100:2008)".into(),
                 value: y_shown,
-                standard_uncertainty: u_for_expanded / f_out,
+                standard_uncertainty: Some(u_for_expanded / f_out),
                 coverage_probability: p,
                 coverage_interval: [y_shown - big_u, y_shown + big_u],
                 expanded_uncertainty: big_u,

@@ -73,7 +73,9 @@ impl Validator<'_, '_> {
             }
             Some(DofGiven::RelativeReliability(r)) => {
                 self.positive(path, "relative_reliability", r, false)?;
-                Some(0.5 / (r * r))
+                // 1/(2R²): 0.25 gives 8; 0.1 gives 49.99999999999999 in
+                // floating point, which is 50.
+                Some(crate::coverage::snap_to_integer(0.5 / (r * r)))
             }
         })
     }
