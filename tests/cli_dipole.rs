@@ -88,3 +88,52 @@ fn dipole_reads_a_users_toml_and_csv() {
         "{err}"
     );
 }
+
+/// A problem with a density column (which once indexed past the columns
+/// read and panicked): the Halverstadt-Kumler moment against the
+/// independent computation of tests/fixtures/make_dipole_density.py
+/// (closed-form least-squares lines and the Halverstadt-Kumler relation
+/// written out in Python; it printed mu_hk = 1.680037534018 D).
+#[test]
+fn dipole_with_densities_gives_the_halverstadt_kumler_moment() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
+        .args(["dipole", "--format", "json"])
+        .arg(root.join("examples/dipole/density.toml"))
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let hk = v["results"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["name"] == "mu_hk")
+        .expect("mu_hk reported");
+    let mu = hk["value"].as_f64().unwrap();
+    assert!((mu - 1.680037534018).abs() < 1e-9, "{mu}");
+    assert!(hk["standard_uncertainty"].as_f64().unwrap() > 0.0);
+    // Every output format and the Monte Carlo path reach it too.
+    for args in [
+        &["--format", "text"][..],
+        &["--format", "markdown"],
+        &["--mc", "20000"],
+    ] {
+        let out = Command::new(env!("CARGO_BIN_EXE_incertus"))
+            .arg("dipole")
+            .args(args)
+            .arg(root.join("examples/dipole/density.toml"))
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{args:?}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        assert!(String::from_utf8_lossy(&out.stdout).contains("mu_hk"));
+    }
+}

@@ -474,11 +474,13 @@ pub fn read_problem(path: &Path) -> Result<Problem, DipoleError> {
         }
     };
     let data = path.parent().unwrap_or(Path::new("")).join(&f.series.data);
-    let cols = incertus_fit::read_columns(
-        &data,
-        &[&f.series.weight_fraction, &f.series.permittivity, &ncol],
-    )
-    .map_err(|e| bad(e.message))?;
+    // The density column, when named, is read with the others (its index
+    // is 3): the columns read are exactly the columns named.
+    let mut wanted: Vec<&str> = vec![&f.series.weight_fraction, &f.series.permittivity, &ncol];
+    if let Some(d) = f.series.density.as_deref() {
+        wanted.push(d);
+    }
+    let cols = incertus_fit::read_columns(&data, &wanted).map_err(|e| bad(e.message))?;
     let n12_squared = if squared {
         cols.columns[2].clone()
     } else {
@@ -511,7 +513,7 @@ pub fn read_problem(path: &Path) -> Result<Problem, DipoleError> {
         temperature: f.conditions.temperature,
         exclude: f.series.exclude,
         exclude_reason: f.series.exclude_reason,
-        density12: f.series.density.as_ref().map(|_| cols.columns[3].clone()),
+        density12: cols.columns.get(3).cloned(),
         approximate_n_gradient: f.series.approximate_n_gradient,
         solvent_refractive_index: f.solvent.refractive_index,
     })

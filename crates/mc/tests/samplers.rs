@@ -200,10 +200,11 @@ fn exponential_and_gamma() {
 }
 
 #[test]
-fn gaussian_copula_gives_the_known_rank_correlation() {
-    // Two rectangular inputs joined by a Gaussian copula with r = 0.5: their
-    // product-moment correlation is (6/π) arcsin(r/2) = 0.4826 (the rank
-    // correlation of the bivariate normal; Pearson 1907, from memory).
+fn gaussian_copula_gives_rectangular_inputs_the_stated_correlation() {
+    // Two rectangular inputs stated with r = 0.5: the copula parameter is
+    // ρ = 2 sin(πr/6) = 0.5176, since a Gaussian copula with ρ gives them
+    // the product-moment correlation (6/π) arcsin(ρ/2) (Pearson 1907,
+    // recalled from memory; crates/mc/tests/copula.rs checks every pair).
     let m = load_str(
         r#"
 [inputs.a]
@@ -239,7 +240,7 @@ formula = "a + b"
         .sum::<f64>()
         / (N as f64 - 1.0);
     let r = cov / (va * vb).sqrt();
-    let want = 6.0 / std::f64::consts::PI * (0.25f64).asin();
+    let want = 0.5;
     assert!((r - want).abs() < 0.01, "{r} vs {want}");
     // Marginals stay rectangular.
     let f = Uniform::new(-1.0, 1.0).unwrap();
